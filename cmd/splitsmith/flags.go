@@ -1,0 +1,85 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"splitsmith/internal/store"
+)
+
+// Shared flags. Each command lists the ones it takes.
+func dbFlag() *cli.StringFlag {
+	return &cli.StringFlag{Name: "db", Usage: "splitsmith database `FILE`", EnvVars: []string{"SPLITSMITH_DB"}, Required: true}
+}
+
+func formatFlag(def string, allowed ...string) *cli.StringFlag {
+	return &cli.StringFlag{Name: "format", Value: def, Usage: "output format: " + strings.Join(allowed, ", ")}
+}
+
+func seedFlag() *cli.Uint64Flag {
+	return &cli.Uint64Flag{Name: "seed", Value: 1, Usage: "`SEED` for every random choice (results are a pure function of data, options and seed)"}
+}
+
+func failOnFlag() *cli.StringFlag {
+	return &cli.StringFlag{Name: "fail-on", Usage: "exit 3 when a finding has this `SEVERITY` or worse: warn or error"}
+}
+
+// checkChoice validates an enumerated flag value.
+func checkChoice(cc *cli.Context, flag string, allowed ...string) (string, error) {
+	v := cc.String(flag)
+	for _, a := range allowed {
+		if v == a {
+			return v, nil
+		}
+	}
+	return "", usagef("splitsmith "+cc.Command.FullName()+" --help", "--%s: %q is not one of %s", flag, v, strings.Join(allowed, ", "))
+}
+
+// severityRank orders severities: info < warn < error.
+func severityRank(s string) int {
+	switch s {
+	case "info":
+		return 1
+	case "warn":
+		return 2
+	case "error":
+		return 3
+	}
+	return 0
+}
+
+func checkFailOn(cc *cli.Context) (string, error) {
+	v := cc.String("fail-on")
+	if v == "" || v == "warn" || v == "error" {
+		return v, nil
+	}
+	return "", usagef("splitsmith "+cc.Command.FullName()+" --help", "--fail-on: %q is not one of warn, error", v)
+}
+
+// openRead opens an existing database for reading (functions registered).
+func openRead(ctx context.Context, path string, readOnly bool) (*store.DB, error) {
+	return store.Open(ctx, path, store.Options{SQL: sqlSets(), ReadOnly: readOnly})
+}
+
+// update runs fn as one writing command recorded in ss_runs.
+func update(ctx context.Context, cc *cli.Context, path string, create bool, fn func(context.Context, *store.Tx) error) error {
+	return store.Update(ctx, path, store.Options{SQL: sqlSets()}, create, store.Run{Command: cc.Command.FullName(), Args: os.Args[1:]}, fn)
+}
+
+func toolVersion() string { return store.ToolVersion() }
+
+// isTerminal reports whether f is a terminal, for progress output.
+func isTerminal(f any) bool {
+	file, ok := f.(*os.File)
+	if !ok {
+		return false
+	}
+	st, err := file.Stat()
+	return err == nil && st.Mode()&os.ModeCharDevice != 0
+}
+
+var _ = fmt.Sprint

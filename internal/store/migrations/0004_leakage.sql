@@ -1,0 +1,2 @@
+-- leakage tables: owned by the leakage package (see DEVELOPERS.md "Tables").
+CREATE TABLE ss_placeholder_leakage(x);

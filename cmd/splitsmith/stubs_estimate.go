@@ -1,16 +1,9 @@
 package main
 
-import (
-	"context"
-	"io"
+import "github.com/urfave/cli/v2"
 
-	"github.com/urfave/cli/v2"
-)
-
-// Placeholder until the estimate work lands; the owner replaces this file with estimate.go.
+// Placeholder until the estimate work lands; its owner replaces this file with estimate.go,
+// whose subcommands are points, formula and curve (newEstimateCurveCommand).
 func newEstimateCommand(s stdio) *cli.Command {
-	return &cli.Command{Name: "estimate", Usage: "(not built yet)"}
+	return &cli.Command{Name: "estimate", Usage: "(not built yet)", Subcommands: []*cli.Command{newEstimateCurveCommand(s)}}
 }
-
-// demoEstimateStep is the demo's estimate step (see stubs_demo.go); a no-op until built.
-func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error { return nil }

@@ -1,0 +1,2 @@
+-- profile tables (see DEVELOPERS.md "Tables").
+CREATE TABLE ss_placeholder_profile(x);

@@ -30,6 +30,9 @@ type LSResult struct {
 	Converged  bool
 }
 
+// maxGrowth bounds the relative change of a parameter in one step.
+const maxGrowth = 10
+
 // ErrNoConvergence reports that LeastSquares hit MaxIter.
 var ErrNoConvergence = errors.New("least squares: no convergence")
 
@@ -181,8 +184,24 @@ func LeastSquares(m Model, x, y, w, start []float64, o *LSOptions) (*LSResult, e
 				}
 				continue
 			}
+			// A step that multiplies a parameter's magnitude by more than maxGrowth is
+			// treated as a failed step (λ grows): it keeps the first steps from a poor start
+			// out of flat far-away plateaus (BoxBOD from NIST start 1).
+			tooFar := false
 			for j := range cand {
 				cand[j] = theta[j] + delta[j]
+				if math.Abs(delta[j]) > maxGrowth*math.Max(math.Abs(theta[j]), 1e-8) {
+					tooFar = true
+				}
+			}
+			if tooFar {
+				lambda *= nu
+				nu *= 2
+				if lambda > 1e30 {
+					converged = true
+					break
+				}
+				continue
 			}
 			clamp(cand)
 			fNew := resid(cand, rNew)

@@ -1,0 +1,565 @@
+package estimate
+
+// Measured learning curves: train a model of each capacity on nested random subsets of the
+// training side at growing sizes, R times with different seeded subsets, and record training
+// and holdout error for every (capacity, size, repeat).
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"sort"
+	"sync"
+)
+
+// Models lists the built-in model names, and Metrics the error metrics.
+var (
+	Models  = []string{"ridge", "logistic", "knn"}
+	Metrics = []string{"mse", "rmse", "mae", "error", "logloss", "auc"}
+)
+
+// MinSizes is the fewest distinct training sizes a curve may have: a three-parameter curve
+// needs more points than parameters, and the backtest holds some out (common practice, no
+// source).
+const MinSizes = 4
+
+// ClassificationMetric reports whether metric scores a 0/1 label by a probability.
+func ClassificationMetric(metric string) bool {
+	return metric == "error" || metric == "logloss" || metric == "auc"
+}
+
+// CurveOptions configures MeasureCurves. Zero values mean the documented defaults.
+type CurveOptions struct {
+	Model string // ridge (default), logistic or knn
+	// Capacities are the knob values: polynomial degrees for ridge and logistic, the number of
+	// neighbours k for knn (capacity 1/k: a smaller k is a more flexible model). Required.
+	Capacities []float64
+	Sizes      []int  // training sizes, increasing; nil → AutoSizes
+	Repeats    int    // seeded subsets per size; 0 → 5
+	Metric     string // "" → mse for ridge and knn, error for logistic
+	Seed       uint64 // repeat r's subsets come from PCG(Seed, r)
+	Ridge      float64
+	L2         float64
+	// Progress, when set, is called with (done, total) work items.
+	Progress func(done, total int64)
+}
+
+// CurvePoint is one measurement: a model of capacity Capacity (degree, or k for knn) trained
+// on the first Size rows of repeat Repeat's permutation of the training side.
+type CurvePoint struct {
+	Capacity   float64
+	Size       int
+	Repeat     int
+	TrainErr   float64
+	HoldoutErr float64
+}
+
+// resolve fills defaults and validates options against the training side.
+func (o CurveOptions) resolve(train, holdout Data) (CurveOptions, error) {
+	if o.Model == "" {
+		o.Model = "ridge"
+	}
+	if !contains(Models, o.Model) {
+		return o, fmt.Errorf("model %q: not one of ridge, logistic, knn", o.Model)
+	}
+	if o.Metric == "" {
+		o.Metric = "mse"
+		if o.Model == "logistic" {
+			o.Metric = "error"
+		}
+	}
+	if !contains(Metrics, o.Metric) {
+		return o, fmt.Errorf("metric %q: not one of %v", o.Metric, Metrics)
+	}
+	if o.Model == "logistic" && !ClassificationMetric(o.Metric) {
+		return o, fmt.Errorf("metric %s: logistic regression is scored by error, logloss or auc", o.Metric)
+	}
+	if o.Model == "ridge" && ClassificationMetric(o.Metric) {
+		return o, fmt.Errorf("metric %s: ridge regression is scored by mse, rmse or mae (use --model logistic or knn for a 0/1 label)", o.Metric)
+	}
+	if o.Repeats == 0 {
+		o.Repeats = 5
+	}
+	if o.Repeats < 1 {
+		return o, fmt.Errorf("repeats %d: must be at least 1", o.Repeats)
+	}
+	if len(o.Capacities) == 0 {
+		return o, errors.New("capacities: at least one is needed")
+	}
+	caps := append([]float64(nil), o.Capacities...)
+	sort.Float64s(caps)
+	for i, c := range caps {
+		if c != math.Trunc(c) || c < 0 || (o.Model == "knn" && c < 1) {
+			if o.Model == "knn" {
+				return o, fmt.Errorf("capacity %v: knn takes whole numbers of neighbours k ≥ 1", c)
+			}
+			return o, fmt.Errorf("capacity %v: a polynomial degree is a whole number ≥ 0", c)
+		}
+		if i > 0 && c == caps[i-1] {
+			return o, fmt.Errorf("capacity %v: listed twice", c)
+		}
+	}
+	o.Capacities = caps
+	if err := train.check("training side"); err != nil {
+		return o, err
+	}
+	if err := holdout.check("holdout side"); err != nil {
+		return o, err
+	}
+	if train.P != holdout.P {
+		return o, fmt.Errorf("training side has %d features, holdout %d", train.P, holdout.P)
+	}
+	if ClassificationMetric(o.Metric) {
+		if err := checkBinary(train.Y); err != nil {
+			return o, fmt.Errorf("training side: %w", err)
+		}
+		for i, v := range holdout.Y {
+			if v != 0 && v != 1 {
+				return o, fmt.Errorf("holdout side row %d: label %v is not 0 or 1", i+1, v)
+			}
+		}
+	} else if constant(train.Y) {
+		return o, fmt.Errorf("training side: label is constant (%v): there is nothing to learn", train.Y[0])
+	}
+	maxCap := int(caps[len(caps)-1])
+	params := maxCap
+	if o.Model != "knn" {
+		b, err := newPolyBasis(train.P, maxCap, train.Groups)
+		if err != nil {
+			return o, err
+		}
+		params = b.Terms(maxCap)
+	}
+	if o.Sizes == nil {
+		s, err := AutoSizes(train.N, params, 8)
+		if err != nil {
+			return o, err
+		}
+		o.Sizes = s
+	}
+	if len(o.Sizes) < MinSizes {
+		return o, fmt.Errorf("sizes: %d given, a curve needs at least %d", len(o.Sizes), MinSizes)
+	}
+	for i, n := range o.Sizes {
+		if n < 2 || n > train.N {
+			return o, fmt.Errorf("size %d: must be between 2 and the training side's %d rows", n, train.N)
+		}
+		if i > 0 && n <= o.Sizes[i-1] {
+			return o, fmt.Errorf("sizes: %d after %d, must increase", n, o.Sizes[i-1])
+		}
+		if o.Model == "knn" && n < maxCap {
+			return o, fmt.Errorf("size %d: smaller than k = %d", n, maxCap)
+		}
+	}
+	return o, nil
+}
+
+// AutoSizes returns count training sizes, geometrically spaced from a small n to the whole
+// training side: the small n is max(30, 2·params), params being the largest model's number of
+// coefficients (or k for knn), so the smallest fit still has twice as many rows as
+// coefficients (common practice, no source).
+func AutoSizes(n, params, count int) ([]int, error) {
+	lo := max(30, 2*params)
+	if lo*4 > n {
+		return nil, fmt.Errorf("training side: %d rows is too few for automatic sizes from %d (2 × %d coefficients) to the whole side; give --sizes or lower the capacity", n, lo, params)
+	}
+	var out []int
+	for i := 0; i < count; i++ {
+		v := int(math.Round(float64(lo) * math.Pow(float64(n)/float64(lo), float64(i)/float64(count-1))))
+		if len(out) == 0 || v > out[len(out)-1] {
+			out = append(out, v)
+		}
+	}
+	out[len(out)-1] = n
+	return out, nil
+}
+
+func contains(list []string, s string) bool {
+	for _, v := range list {
+		if v == s {
+			return true
+		}
+	}
+	return false
+}
+
+func constant(y []float64) bool {
+	for _, v := range y[1:] {
+		if v != y[0] {
+			return false
+		}
+	}
+	return true
+}
+
+// Metric scores predictions pred of labels y. For regression metrics pred is the prediction;
+// for classification metrics it is P(label = 1). error is the misclassification rate at 0.5
+// (a probability of exactly 0.5 predicts 0); logloss clips probabilities to [1e-15, 1−1e-15];
+// auc returns 1 − AUC (the Mann–Whitney statistic with ties counted one half), so every metric
+// falls as the model improves.
+func Metric(name string, y, pred []float64) (float64, error) {
+	n := float64(len(y))
+	if len(y) == 0 || len(pred) != len(y) {
+		return 0, fmt.Errorf("metric %s: %d labels, %d predictions", name, len(y), len(pred))
+	}
+	var s float64
+	switch name {
+	case "mse", "rmse":
+		for i := range y {
+			e := y[i] - pred[i]
+			s += e * e
+		}
+		s /= n
+		if name == "rmse" {
+			s = math.Sqrt(s)
+		}
+		return s, nil
+	case "mae":
+		for i := range y {
+			s += math.Abs(y[i] - pred[i])
+		}
+		return s / n, nil
+	case "error":
+		for i := range y {
+			c := 0.0
+			if pred[i] > 0.5 {
+				c = 1
+			}
+			if c != y[i] {
+				s++
+			}
+		}
+		return s / n, nil
+	case "logloss":
+		for i := range y {
+			p := math.Min(math.Max(pred[i], 1e-15), 1-1e-15)
+			if y[i] == 1 {
+				s -= math.Log(p)
+			} else {
+				s -= math.Log1p(-p)
+			}
+		}
+		return s / n, nil
+	case "auc":
+		a, err := AUC(y, pred)
+		if err != nil {
+			return 0, err
+		}
+		return 1 - a, nil
+	}
+	return 0, fmt.Errorf("metric %q: unknown", name)
+}
+
+// AUC is the area under the ROC curve: the probability that a random positive scores above a
+// random negative, ties one half (Mann–Whitney U / (n₁n₀); Hanley & McNeil 1982).
+func AUC(y, score []float64) (float64, error) {
+	idx := make([]int, len(y))
+	for i := range idx {
+		idx[i] = i
+	}
+	sort.Slice(idx, func(a, b int) bool { return score[idx[a]] < score[idx[b]] })
+	var rankSum, n1 float64
+	for i := 0; i < len(idx); {
+		j := i
+		for j < len(idx) && score[idx[j]] == score[idx[i]] {
+			j++
+		}
+		avg := float64(i+j+1) / 2 // ranks i+1..j
+		for k := i; k < j; k++ {
+			if y[idx[k]] == 1 {
+				rankSum += avg
+				n1++
+			}
+		}
+		i = j
+	}
+	n0 := float64(len(y)) - n1
+	if n1 == 0 || n0 == 0 {
+		return 0, errors.New("auc: the labels need both classes")
+	}
+	return (rankSum - n1*(n1+1)/2) / (n1 * n0), nil
+}
+
+// permutation returns repeat r's seeded ordering of n training rows; the first Size rows of
+// it are the training subset at that size, so subsets are nested.
+func permutation(seed uint64, r, n int) []int {
+	return rand.New(rand.NewPCG(seed, 0x5eed0000+uint64(r))).Perm(n)
+}
+
+// MeasureCurves trains the model at every capacity on nested seeded subsets of train and
+// scores it on the subset (training error) and on holdout (holdout error). Features are
+// standardised with the whole training side's mean and standard deviation (so every subset
+// sees the same features; the holdout side contributes nothing). Ridge uses the one-pass sweep
+// (sweep.go); logistic and knn fit every (capacity, size, repeat). Work runs on all cores;
+// the result is sorted by capacity, size, repeat and does not depend on the number of cores.
+func MeasureCurves(ctx context.Context, train, holdout Data, opts *CurveOptions) ([]CurvePoint, error) {
+	if opts == nil {
+		opts = &CurveOptions{}
+	}
+	o, err := opts.resolve(train, holdout)
+	if err != nil {
+		return nil, err
+	}
+	var pts []CurvePoint
+	switch o.Model {
+	case "ridge":
+		degs := make([]int, len(o.Capacities))
+		for i, c := range o.Capacities {
+			degs[i] = int(c)
+		}
+		pts, err = sweepRidge(ctx, train, holdout, degs, o)
+	case "logistic":
+		pts, err = curvesLogistic(ctx, train, holdout, o)
+	case "knn":
+		pts, err = curvesKNN(ctx, train, holdout, o)
+	}
+	if err != nil {
+		return nil, err
+	}
+	sort.Slice(pts, func(i, j int) bool {
+		a, b := pts[i], pts[j]
+		if a.Capacity != b.Capacity {
+			return a.Capacity < b.Capacity
+		}
+		if a.Size != b.Size {
+			return a.Size < b.Size
+		}
+		return a.Repeat < b.Repeat
+	})
+	return pts, nil
+}
+
+// parallel runs work(i) for i in [0, n) on GOMAXPROCS goroutines, stopping at the first error
+// or when ctx is done; progress (if set) sees each completed item.
+func parallel(ctx context.Context, n int, progress func(done, total int64), work func(i int) error) error {
+	workers := min(runtime.GOMAXPROCS(0), n)
+	var (
+		mu   sync.Mutex
+		next int
+		done int64
+		ferr error
+		wg   sync.WaitGroup
+	)
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				mu.Lock()
+				if ferr != nil || next >= n {
+					mu.Unlock()
+					return
+				}
+				if err := ctx.Err(); err != nil {
+					ferr = err
+					mu.Unlock()
+					return
+				}
+				i := next
+				next++
+				mu.Unlock()
+				err := work(i)
+				mu.Lock()
+				if err != nil && ferr == nil {
+					ferr = err
+				}
+				done++
+				if progress != nil {
+					progress(done, int64(n))
+				}
+				mu.Unlock()
+			}
+		}()
+	}
+	wg.Wait()
+	return ferr
+}
+
+// standardised returns d's features standardised with sc (a new matrix).
+func standardised(d Data, sc scaler) []float64 {
+	z := make([]float64, len(d.X))
+	for i := 0; i < d.N; i++ {
+		sc.apply(d.Row(i), z[i*d.P:(i+1)*d.P])
+	}
+	return z
+}
+
+// expandAll expands standardised rows z (n×p) to the first m terms of basis.
+func expandAll(z []float64, n, p int, basis *polyBasis, m int) []float64 {
+	out := make([]float64, n*m)
+	full := make([]float64, basis.Terms(basis.Deg))
+	for i := 0; i < n; i++ {
+		basis.expand(z[i*p:(i+1)*p], full)
+		copy(out[i*m:(i+1)*m], full[:m])
+	}
+	return out
+}
+
+func curvesLogistic(ctx context.Context, train, holdout Data, o CurveOptions) ([]CurvePoint, error) {
+	maxDeg := int(o.Capacities[len(o.Capacities)-1])
+	basis, err := newPolyBasis(train.P, maxDeg, train.Groups)
+	if err != nil {
+		return nil, err
+	}
+	sc := newScaler(train)
+	mFull := basis.Terms(maxDeg)
+	trainX := expandAll(standardised(train, sc), train.N, train.P, basis, mFull)
+	holdX := expandAll(standardised(holdout, sc), holdout.N, holdout.P, basis, mFull)
+	lambda := l2Lambda(o.L2)
+	perms := make([][]int, o.Repeats)
+	for r := range perms {
+		perms[r] = permutation(o.Seed, r, train.N)
+	}
+	type item struct{ r, k, c int }
+	var items []item
+	for r := 0; r < o.Repeats; r++ {
+		for k := range o.Sizes {
+			for c := range o.Capacities {
+				items = append(items, item{r, k, c})
+			}
+		}
+	}
+	pts := make([]CurvePoint, len(items))
+	err = parallel(ctx, len(items), o.Progress, func(i int) error {
+		it := items[i]
+		n := o.Sizes[it.k]
+		deg := int(o.Capacities[it.c])
+		m := basis.Terms(deg)
+		a := make([]float64, n*m)
+		y := make([]float64, n)
+		for row, src := range perms[it.r][:n] {
+			copy(a[row*m:(row+1)*m], trainX[src*mFull:src*mFull+m])
+			y[row] = train.Y[src]
+		}
+		if err := checkBinary(y); err != nil {
+			return fmt.Errorf("repeat %d size %d: %w; use larger sizes", it.r+1, n, err)
+		}
+		beta, _, err := IRLS(a, y, n, m, lambda)
+		if err != nil {
+			return fmt.Errorf("logistic degree %d, size %d: %w", deg, n, err)
+		}
+		ptr := make([]float64, n)
+		for row := 0; row < n; row++ {
+			ptr[row] = sigmoid(dot(beta, a[row*m:(row+1)*m]))
+		}
+		ph := make([]float64, holdout.N)
+		for row := 0; row < holdout.N; row++ {
+			ph[row] = sigmoid(dot(beta, holdX[row*mFull:row*mFull+m]))
+		}
+		te, err := Metric(o.Metric, y, ptr)
+		if err != nil {
+			return err
+		}
+		he, err := Metric(o.Metric, holdout.Y, ph)
+		if err != nil {
+			return err
+		}
+		pts[i] = CurvePoint{Capacity: o.Capacities[it.c], Size: n, Repeat: it.r + 1, TrainErr: te, HoldoutErr: he}
+		return nil
+	})
+	return pts, err
+}
+
+func curvesKNN(ctx context.Context, train, holdout Data, o CurveOptions) ([]CurvePoint, error) {
+	sc := newScaler(train)
+	zt := standardised(train, sc)
+	zh := standardised(holdout, sc)
+	kmax := int(o.Capacities[len(o.Capacities)-1])
+	perms := make([][]int, o.Repeats)
+	for r := range perms {
+		perms[r] = permutation(o.Seed, r, train.N)
+	}
+	type item struct{ r, k int }
+	var items []item
+	for r := 0; r < o.Repeats; r++ {
+		for k := range o.Sizes {
+			items = append(items, item{r, k})
+		}
+	}
+	p := train.P
+	out := make([][]CurvePoint, len(items))
+	err := parallel(ctx, len(items), o.Progress, func(i int) error {
+		it := items[i]
+		n := o.Sizes[it.k]
+		pts := make([]float64, n*p)
+		y := make([]float64, n)
+		for row, src := range perms[it.r][:n] {
+			copy(pts[row*p:(row+1)*p], zt[src*p:(src+1)*p])
+			y[row] = train.Y[src]
+		}
+		tree := newKDTree(pts, n, p)
+		predict := func(q []float64, nq int) [][]float64 { // per capacity, predictions
+			res := make([][]float64, len(o.Capacities))
+			for c := range res {
+				res[c] = make([]float64, nq)
+			}
+			var heap []neighbour
+			for j := 0; j < nq; j++ {
+				heap = tree.knn(q[j*p:(j+1)*p], kmax, heap)
+				var sum float64
+				next := 0
+				for c, kc := range o.Capacities {
+					for ; next < int(kc); next++ {
+						sum += y[heap[next].idx]
+					}
+					res[c][j] = sum / kc
+				}
+			}
+			return res
+		}
+		ptr := predict(pts, n)
+		ph := predict(zh, holdout.N)
+		for c, kc := range o.Capacities {
+			te, err := Metric(o.Metric, y, ptr[c])
+			if err != nil {
+				return err
+			}
+			he, err := Metric(o.Metric, holdout.Y, ph[c])
+			if err != nil {
+				return err
+			}
+			out[i] = append(out[i], CurvePoint{Capacity: kc, Size: n, Repeat: it.r + 1, TrainErr: te, HoldoutErr: he})
+		}
+		return nil
+	})
+	var all []CurvePoint
+	for _, o := range out {
+		all = append(all, o...)
+	}
+	return all, err
+}
+
+// KNN is a k-nearest-neighbours model on standardised features.
+type KNN struct {
+	K    int
+	tree *kdTree
+	y    []float64
+	sc   scaler
+}
+
+// FitKNN stores the training side in a k-d tree.
+func FitKNN(d Data, k int) (*KNN, error) {
+	if err := d.check("knn"); err != nil {
+		return nil, err
+	}
+	if k < 1 || k > d.N {
+		return nil, fmt.Errorf("knn: k = %d with %d rows", k, d.N)
+	}
+	sc := newScaler(d)
+	return &KNN{K: k, tree: newKDTree(standardised(d, sc), d.N, d.P), y: d.Y, sc: sc}, nil
+}
+
+// Predict returns the mean label of the K nearest training rows (for a 0/1 label, the
+// fraction labelled 1).
+func (m *KNN) Predict(x []float64) float64 {
+	z := make([]float64, len(x))
+	m.sc.apply(x, z)
+	var s float64
+	for _, nb := range m.tree.knn(z, m.K, nil) {
+		s += m.y[nb.idx]
+	}
+	return s / float64(m.K)
+}

@@ -1,0 +1,190 @@
+package estimate
+
+// The ridge capacity sweep in one pass over the data. Two facts make it cheap:
+//
+//  1. The training subsets are nested (the first n rows of one seeded permutation), so the
+//     normal equations XᵀX, Xᵀy accumulate from one size to the next: each row is added once
+//     per repeat, not once per size.
+//  2. The polynomial terms are in graded order, so the design of every lower degree is a prefix
+//     of the highest degree's columns, and its normal equations are the leading block of the
+//     highest degree's Gram matrix.
+//
+// So one accumulation per repeat (a rank-k update, BLAS dsyrk, over blocks of expanded rows)
+// serves every (size, degree). Each (repeat, size, degree) system is then solved by Cholesky
+// with the ridge term; when the factorisation fails or its condition estimate exceeds
+// CondLimit, that system is re-solved by Householder QR on its expanded rows (qrSolve). The
+// accumulations (one per repeat) and then the solves run on all cores.
+
+import (
+	"context"
+	"fmt"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+)
+
+// maxExpanded bounds the expanded training matrix kept in memory (float64s); above it rows are
+// expanded again where needed.
+const maxExpanded = 16 << 20
+
+// SweepStats reports how a sweep's systems were solved.
+type SweepStats struct {
+	Systems  int // (repeat, size, degree) systems solved
+	QRSolves int // of them, re-solved by QR because Cholesky was refused
+}
+
+func sweepRidge(ctx context.Context, train, holdout Data, degs []int, o CurveOptions) ([]CurvePoint, error) {
+	pts, _, err := sweepRidgeStats(ctx, train, holdout, degs, o, nil)
+	return pts, err
+}
+
+// sweepRidgeStats is the sweep; keep, when set, sees every solved system's coefficients (on
+// the standardised, expanded terms) and whether QR solved it.
+func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o CurveOptions, keep func(r, size, deg int, beta []float64, usedQR bool)) ([]CurvePoint, SweepStats, error) {
+	var stats SweepStats
+	maxDeg := degs[len(degs)-1]
+	basis, err := newPolyBasis(train.P, maxDeg, train.Groups)
+	if err != nil {
+		return nil, stats, err
+	}
+	m := basis.Terms(maxDeg)
+	sc := newScaler(train)
+	zt := standardised(train, sc)
+	p := train.P
+	var trainX []float64 // expanded training rows, when they fit
+	if train.N*m <= maxExpanded {
+		trainX = expandAll(zt, train.N, p, basis, m)
+	}
+	// row writes expanded training row src (first mm terms) into dst; buf is scratch of len m.
+	row := func(src int, dst, buf []float64) {
+		if trainX != nil {
+			copy(dst, trainX[src*m:src*m+len(dst)])
+			return
+		}
+		basis.expand(zt[src*p:(src+1)*p], buf)
+		copy(dst, buf[:len(dst)])
+	}
+	holdX := expandAll(standardised(holdout, sc), holdout.N, p, basis, m)
+	lambda := ridgeLambda(o.Ridge)
+	perms := make([][]int, o.Repeats)
+	for r := range perms {
+		perms[r] = permutation(o.Seed, r, train.N)
+	}
+	nk := len(o.Sizes)
+	// Phase 1: per repeat, accumulate G = XᵀX (upper triangle) and c = Xᵀy, snapshotting both
+	// at every size.
+	grams := make([][][]float64, o.Repeats)
+	rhs := make([][][]float64, o.Repeats)
+	total := int64(o.Repeats + o.Repeats*nk*len(degs))
+	var doneBase int64
+	prog := func(done, _ int64) {
+		if o.Progress != nil {
+			o.Progress(doneBase+done, total)
+		}
+	}
+	const block = 512
+	err = parallel(ctx, o.Repeats, prog, func(r int) error {
+		g := blas64.Symmetric{N: m, Stride: m, Uplo: blas.Upper, Data: make([]float64, m*m)}
+		c := make([]float64, m)
+		a := make([]float64, block*m)
+		yb := make([]float64, block)
+		buf := make([]float64, m)
+		perm := perms[r]
+		grams[r] = make([][]float64, nk)
+		rhs[r] = make([][]float64, nk)
+		start := 0
+		for k, n := range o.Sizes {
+			for start < n {
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+				end := min(start+block, n)
+				rows := end - start
+				for i := 0; i < rows; i++ {
+					src := perm[start+i]
+					row(src, a[i*m:(i+1)*m], buf)
+					yb[i] = train.Y[src]
+				}
+				ag := blas64.General{Rows: rows, Cols: m, Stride: m, Data: a[:rows*m]}
+				blas64.Syrk(blas.Trans, 1, ag, 1, g)
+				blas64.Gemv(blas.Trans, 1, ag, blas64.Vector{N: rows, Inc: 1, Data: yb[:rows]}, 1, blas64.Vector{N: m, Inc: 1, Data: c})
+				start = end
+			}
+			grams[r][k] = append([]float64(nil), g.Data...)
+			rhs[r][k] = append([]float64(nil), c...)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, stats, err
+	}
+	doneBase = int64(o.Repeats)
+	// Phase 2: solve and score every (repeat, size, degree).
+	type item struct{ r, k, d int }
+	var items []item
+	for r := 0; r < o.Repeats; r++ {
+		for k := 0; k < nk; k++ {
+			for d := range degs {
+				items = append(items, item{r, k, d})
+			}
+		}
+	}
+	pts := make([]CurvePoint, len(items))
+	usedQR := make([]bool, len(items))
+	err = parallel(ctx, len(items), prog, func(i int) error {
+		it := items[i]
+		n := o.Sizes[it.k]
+		deg := degs[it.d]
+		mm := basis.Terms(deg)
+		full := grams[it.r][it.k]
+		g := make([]float64, mm*mm)
+		for a := 0; a < mm; a++ {
+			copy(g[a*mm+a:(a+1)*mm], full[a*m+a:a*m+mm])
+		}
+		mirror(g, mm)
+		perm := perms[it.r][:n]
+		buf := make([]float64, m)
+		beta, _, ok := ridgeSolve(g, rhs[it.r][it.k][:mm], mm, lambda*float64(n))
+		if !ok {
+			usedQR[i] = true
+			var err error
+			beta, err = qrSolve(n, mm, func(i int, dst []float64) { row(perm[i], dst, buf) },
+				func(i int) float64 { return train.Y[perm[i]] }, lambda*float64(n))
+			if err != nil {
+				return fmt.Errorf("ridge degree %d, size %d: %w", deg, n, err)
+			}
+		}
+		if keep != nil {
+			keep(it.r, n, deg, beta, usedQR[i])
+		}
+		y := make([]float64, n)
+		pred := make([]float64, n)
+		t := make([]float64, mm)
+		for j, src := range perm {
+			row(src, t, buf)
+			pred[j] = dot(beta, t)
+			y[j] = train.Y[src]
+		}
+		te, err := Metric(o.Metric, y, pred)
+		if err != nil {
+			return err
+		}
+		ph := make([]float64, holdout.N)
+		for j := 0; j < holdout.N; j++ {
+			ph[j] = dot(beta, holdX[j*m:j*m+mm])
+		}
+		he, err := Metric(o.Metric, holdout.Y, ph)
+		if err != nil {
+			return err
+		}
+		pts[i] = CurvePoint{Capacity: float64(deg), Size: n, Repeat: it.r + 1, TrainErr: te, HoldoutErr: he}
+		return nil
+	})
+	stats.Systems = len(items)
+	for _, q := range usedQR {
+		if q {
+			stats.QRSolves++
+		}
+	}
+	return pts, stats, err
+}

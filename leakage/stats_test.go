@@ -19,10 +19,10 @@ func TestKS2_AgainstScipy(t *testing.T) {
 	x25 := []float64{0.61, 0.29, 0.06, 0.59, -1.73, -0.74, 0.51, -0.56, 0.39, 1.64, 0.05, -0.06, 0.64, -0.82, 0.37, 1.77, 1.09, -1.28, 2.36, 1.31, 1.05, -0.32, -0.4, 1.06, -2.47}
 	y20 := []float64{2.2, 1.66, 1.38, 0.2, 0.36, 0.0, 0.96, 1.56, 0.44, 1.5, -0.3, 0.66, 2.31, 3.29, -0.27, -0.37, 0.38, 0.7, 0.52, -0.55}
 	tests := []struct {
-		name  string
-		x, y  []float64
-		d, p  float64
-		src   string
+		name string
+		x, y []float64
+		d, p float64
+		src  string
 	}{
 		// scipy test suite (scipy/stats/tests/test_stats.py, TestKSTwoSamples), and
 		// scipy 1.10.1 ks_2samp([1.01, 2.01], [1, 2, 3], method='exact') -> D=0.3333333333333333, p=1.0

@@ -1,0 +1,284 @@
+package ingest
+
+import (
+	"context"
+	"database/sql"
+	"database/sql/driver"
+	"errors"
+	"fmt"
+	"os"
+	"strings"
+)
+
+var osStat = os.Stat
+
+// maxParams stays under SQLite's default limit of bound parameters per statement (32766).
+const maxParams = 32000
+
+// batch is rows*width bound values for one multi-row INSERT, plus rejected rows met on the way.
+type batch struct {
+	args    []driver.NamedValue
+	n       int
+	rejects []Problem
+}
+
+func newBatch(per, width int) *batch {
+	b := &batch{args: make([]driver.NamedValue, per*width)}
+	for i := range b.args {
+		b.args[i].Ordinal = i + 1
+	}
+	return b
+}
+
+// pass2 reads every input again and loads it: a producer goroutine parses, converts and
+// digests rows into batches while this goroutine executes multi-row INSERTs through the
+// driver's own statement interface (no database/sql conversion per value).
+func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
+	width := 4 + len(l.cols)
+	per := l.opts.BatchRows
+	if per*width > maxParams {
+		per = max(1, maxParams/width)
+	}
+	res := &Result{Table: l.table, Mode: l.mode, FirstRow: l.firstRow}
+	pctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	free := make(chan *batch, 4)
+	full := make(chan *batch, 4)
+	for range 4 {
+		free <- newBatch(per, width)
+	}
+	var perr error
+	go func() {
+		perr = l.produce(pctx, free, full, per, width)
+		close(full)
+	}()
+	cerr := conn.Raw(func(dc any) error { return l.consume(ctx, dc, full, free, per, width) })
+	if cerr != nil {
+		cancel()
+	}
+	for range full { // drain, so the producer finishes (and perr is visible) before we go on
+	}
+	if cerr != nil {
+		return nil, cerr
+	}
+	if perr != nil {
+		return nil, perr
+	}
+	for _, s := range l.srcs {
+		res.Rows += s.rows
+		res.Skipped += s.skipped
+		res.Rejected += s.rejected
+	}
+	return res, nil
+}
+
+func (l *loader) insertSQL(rows int) string {
+	var b strings.Builder
+	b.WriteString("INSERT INTO " + quoteIdent(l.table) + " VALUES ")
+	one := "(" + strings.Repeat("?,", 4+len(l.cols)-1) + "?)"
+	for i := range rows {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		b.WriteString(one)
+	}
+	return b.String()
+}
+
+func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free chan<- *batch, per, width int) error {
+	pc, ok := dc.(driver.ConnPrepareContext)
+	if !ok {
+		return errors.New("ingest: driver connection cannot prepare statements")
+	}
+	prepare := func(q string) (driver.StmtExecContext, func(), error) {
+		st, err := pc.PrepareContext(ctx, q)
+		if err != nil {
+			return nil, nil, err
+		}
+		se, ok := st.(driver.StmtExecContext)
+		if !ok {
+			st.Close()
+			return nil, nil, errors.New("ingest: driver statement cannot execute with a context")
+		}
+		return se, func() { st.Close() }, nil
+	}
+	stFull, closeFull, err := prepare(l.insertSQL(per))
+	if err != nil {
+		return fmt.Errorf("insert into %s: %w", l.table, err)
+	}
+	defer closeFull()
+	var stRej driver.StmtExecContext
+	rejArgs := make([]driver.NamedValue, 8)
+	for i := range rejArgs {
+		rejArgs[i].Ordinal = i + 1
+	}
+	for b := range full {
+		if b.n == per {
+			if _, err := stFull.ExecContext(ctx, b.args); err != nil {
+				return fmt.Errorf("insert into %s: %w", l.table, err)
+			}
+		} else if b.n > 0 {
+			st, closeSt, err := prepare(l.insertSQL(b.n))
+			if err != nil {
+				return fmt.Errorf("insert into %s: %w", l.table, err)
+			}
+			_, err = st.ExecContext(ctx, b.args[:b.n*width])
+			closeSt()
+			if err != nil {
+				return fmt.Errorf("insert into %s: %w", l.table, err)
+			}
+		}
+		for _, p := range b.rejects {
+			if stRej == nil {
+				var closeRej func()
+				stRej, closeRej, err = prepare(`INSERT INTO ss_rejects(run_id, table_name, source, line, column_name, value, reason, raw) VALUES(?,?,?,?,?,?,?,?)`)
+				if err != nil {
+					return fmt.Errorf("quarantine: %w", err)
+				}
+				defer closeRej()
+			}
+			vals := []driver.Value{l.opts.RunID, l.table, p.Source, p.Line, nullIfEmpty(p.Column), nullIfEmpty(p.Value), p.Reason, p.Raw}
+			for i, v := range vals {
+				rejArgs[i].Value = v
+			}
+			if _, err := stRej.ExecContext(ctx, rejArgs); err != nil {
+				return fmt.Errorf("quarantine: %w", err)
+			}
+		}
+		free <- b
+	}
+	return nil
+}
+
+func nullIfEmpty(s string) driver.Value {
+	if s == "" {
+		return nil
+	}
+	return s
+}
+
+// produce is pass 2's reading side.
+func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *batch, per, width int) error {
+	conv := &converter{}
+	d := NewDigester()
+	rowID := l.firstRow
+	var b *batch
+	get := func() error {
+		select {
+		case b = <-free:
+			b.n = 0
+			b.rejects = b.rejects[:0]
+			return nil
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	send := func() error {
+		select {
+		case full <- b:
+			b = nil
+			return nil
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	if err := get(); err != nil {
+		return err
+	}
+	for _, s := range l.srcs {
+		if err := s.unchanged(); err != nil {
+			return err
+		}
+		rr, done, err := s.open(false, l.progress)
+		if err != nil {
+			return err
+		}
+		err = l.produceSource(ctx, s, rr, conv, d, &rowID, &b, per, width, send, get)
+		done()
+		if err != nil {
+			return err
+		}
+	}
+	if b.n > 0 || len(b.rejects) > 0 {
+		return send()
+	}
+	return nil
+}
+
+func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, conv *converter, d *Digester, rowID *int64, bp **batch, per, width int, send, get func() error) error {
+	if _, _, err := rr.header(); err != nil {
+		return fmt.Errorf("read %s: %w", s.name, err)
+	}
+	src := driver.Value(s.name)
+	for {
+		ok, err := rr.next()
+		if err != nil {
+			return fmt.Errorf("read %s: %w", s.name, err)
+		}
+		if !ok {
+			return nil
+		}
+		b := *bp
+		r := rr.rec()
+		if p := l.rowProblem(s, r, conv); p != nil {
+			if l.opts.OnError == "quarantine" {
+				s.rejected++
+				b.rejects = append(b.rejects, *p)
+				if len(b.rejects) >= per {
+					if err := send(); err != nil {
+						return err
+					}
+					if err := get(); err != nil {
+						return err
+					}
+				}
+			} else if l.opts.OnError == "skip" {
+				s.skipped++
+			} else {
+				return p
+			}
+			continue
+		}
+		args := b.args[b.n*width : (b.n+1)*width]
+		args[0].Value = *rowID
+		args[1].Value = src
+		args[2].Value = r.line
+		d.Reset()
+		for i, f := range r.fields {
+			if l.isMissing(f) {
+				args[4+i].Value = nil
+				d.Null()
+				continue
+			}
+			v, ok := conv.value(l.types[i], l.lenient[i], f)
+			if !ok {
+				return &Problem{Source: s.name, Line: r.line, Column: l.cols[i], Value: string(f),
+					Reason: fmt.Sprintf("value %q no longer parses as %s (did the input change while loading?)", clip(string(f)), l.types[i])}
+			}
+			switch x := v.(type) {
+			case int64:
+				d.Int(x)
+			case float64:
+				d.Real(x)
+			case string:
+				d.Text(x)
+			}
+			args[4+i].Value = v
+		}
+		args[3].Value = d.Sum()
+		*rowID++
+		s.rows++
+		b.n++
+		if b.n == per {
+			if err := send(); err != nil {
+				return err
+			}
+			if err := get(); err != nil {
+				return err
+			}
+		}
+		if s.rows&4095 == 0 && ctx.Err() != nil {
+			return ctx.Err()
+		}
+	}
+}

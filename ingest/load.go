@@ -1,0 +1,663 @@
+package ingest
+
+import (
+	"context"
+	"database/sql"
+	"database/sql/driver"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Options say how Load reads and stores its inputs. The zero value infers types, fails on
+// the first bad row and refuses an existing table.
+type Options struct {
+	Table   string          // target table; "" = the first input's base name without extensions
+	Format  string          // csv, tsv or jsonl for every input; "" = from each input's extension
+	Schema  map[string]Type // column → type, overriding inference (values that break it are bad rows)
+	OnError string          // fail (default): stop at the first bad row; skip; quarantine (into ss_rejects)
+	Replace bool            // drop an existing table of that name first
+	Append  bool            // add rows to an existing ingested table (its types act as a schema)
+	Missing []string        // tokens read as NULL besides the empty string; nil = DefaultMissing
+	RunID   int64           // ss_runs.run_id stored with ss_sources and ss_rejects rows
+	TempDir string          // where stdin and Reader inputs are spooled; "" = os.TempDir()
+	// CheckName refuses reserved table and column names (the CLI passes store.CheckUserName);
+	// nil uses the ss_/sqlite_ prefix rule alone.
+	CheckName   func(kind, name string) error
+	Progress    func(done, total int64) // bytes read over both passes; may be nil
+	BatchRows   int                     // rows per INSERT statement; 0 = automatic (about 150)
+	MaxProblems int                     // row problems kept in Result.Problems; 0 = 20
+}
+
+// Column is one user column as loaded.
+type Column struct {
+	Name    string
+	Type    Type
+	SQLType string
+	Reason  string
+	Missing int64
+}
+
+// SourceResult is one input as loaded (a row of ss_sources).
+type SourceResult struct {
+	Name     string
+	Format   string
+	Gzip     bool
+	Size     int64
+	SHA256   string
+	Rows     int64
+	Skipped  int64
+	Rejected int64
+}
+
+// Result describes a finished load.
+type Result struct {
+	Table    string
+	Mode     string // create, replace or append
+	FirstRow int64  // ss_row of the first row loaded by this call
+	Rows     int64  // rows loaded by this call
+	Skipped  int64
+	Rejected int64
+	Sources  []SourceResult
+	Columns  []Column
+	Problems []Problem // the first MaxProblems bad rows (skip and quarantine)
+	// DigestCheckSQL lists rows whose values no longer match their ss_digest (empty = intact).
+	DigestCheckSQL string
+}
+
+// Problem is a bad input row or value, located. It is the error Load returns for bad data.
+type Problem struct {
+	Source string
+	Line   int64
+	Column string // "" when the whole row is bad
+	Value  string
+	Reason string
+	Raw    string
+}
+
+func (p *Problem) Error() string {
+	var b strings.Builder
+	b.WriteString(p.Source)
+	if p.Line > 0 {
+		b.WriteString(":" + strconv.FormatInt(p.Line, 10))
+	}
+	b.WriteString(": ")
+	if p.Column != "" {
+		b.WriteString("column " + strconv.Quote(p.Column) + ": ")
+	}
+	b.WriteString(p.Reason)
+	return b.String()
+}
+
+type loader struct {
+	opts     Options
+	srcs     []*source
+	cols     []string
+	stats    []colStat
+	types    []Type
+	missing  [][]byte
+	lenient  []bool
+	problems []Problem
+	total    int64
+	done     int64
+	mode     string
+	table    string
+	firstRow int64
+	existing []Column
+}
+
+// Load reads the inputs and loads them into one table on conn, inside the caller's
+// transaction. Bad data returns a *Problem (nothing should then be committed); mistakes in
+// the call return a *UsageError.
+func Load(ctx context.Context, conn *sql.Conn, inputs []Input, opts Options) (*Result, error) {
+	l := &loader{opts: opts}
+	defer func() {
+		for _, s := range l.srcs {
+			s.cleanup()
+		}
+	}()
+	if err := l.check(inputs); err != nil {
+		return nil, err
+	}
+	if err := l.target(ctx, conn); err != nil {
+		return nil, err
+	}
+	for _, s := range l.srcs {
+		if err := s.prepare(opts.TempDir); err != nil {
+			return nil, err
+		}
+		if s.spool {
+			l.total += 2 * s.size
+		} else if !s.modTime.IsZero() {
+			if st, err := statSize(s.path); err == nil {
+				l.total += 2 * st
+			}
+		}
+	}
+	if err := l.pass1(ctx); err != nil {
+		return nil, err
+	}
+	if err := l.create(ctx, conn); err != nil {
+		return nil, err
+	}
+	res, err := l.pass2(ctx, conn)
+	if err != nil {
+		return nil, err
+	}
+	if err := l.record(ctx, conn, res); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+func (l *loader) check(inputs []Input) error {
+	o := &l.opts
+	if len(inputs) == 0 {
+		return usagef("no inputs")
+	}
+	switch o.OnError {
+	case "":
+		o.OnError = "fail"
+	case "fail", "skip", "quarantine":
+	default:
+		return usagef("on-error %q is not one of fail, skip, quarantine", o.OnError)
+	}
+	if o.Replace && o.Append {
+		return usagef("--replace and --append exclude each other")
+	}
+	if o.Missing == nil {
+		o.Missing = DefaultMissing
+	}
+	for _, m := range o.Missing {
+		l.missing = append(l.missing, []byte(m))
+	}
+	if o.BatchRows <= 0 {
+		o.BatchRows = 150
+	}
+	if o.MaxProblems <= 0 {
+		o.MaxProblems = 20
+	}
+	if o.CheckName == nil {
+		o.CheckName = defaultCheckName
+	}
+	seen := map[string]bool{}
+	for _, in := range inputs {
+		if in.Name == "" {
+			in.Name = in.Path
+		}
+		if seen[in.Name] {
+			return usagef("input %s is given twice", in.Name)
+		}
+		seen[in.Name] = true
+		f, err := formatOf(in, o.Format)
+		if err != nil {
+			return err
+		}
+		l.srcs = append(l.srcs, &source{in: in, name: in.Name, format: f})
+	}
+	l.table = o.Table
+	if l.table == "" {
+		if inputs[0].Name == "-" || inputs[0].Reader != nil && inputs[0].Name == "" {
+			return usagef("--table is required when reading standard input")
+		}
+		base := filepath.Base(strings.TrimSuffix(inputs[0].Name, ".gz"))
+		base = strings.TrimSuffix(base, filepath.Ext(base))
+		l.table = base
+	}
+	if err := o.CheckName("table", l.table); err != nil {
+		return usagef("%v", err)
+	}
+	return nil
+}
+
+func defaultCheckName(kind, name string) error {
+	n := strings.ToLower(name)
+	if name == "" {
+		return fmt.Errorf("%s name is empty", kind)
+	}
+	if strings.HasPrefix(n, "ss_") || strings.HasPrefix(n, "sqlite_") {
+		return fmt.Errorf("%s name %q is reserved", kind, name)
+	}
+	return nil
+}
+
+// target checks what exists under the table name and decides the mode.
+func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
+	var typ, name string
+	err := conn.QueryRowContext(ctx, `SELECT type, name FROM sqlite_schema WHERE lower(name) = lower(?)`, l.table).Scan(&typ, &name)
+	if err != nil && !errors.Is(err, sql.ErrNoRows) {
+		return fmt.Errorf("check table %s: %w", l.table, err)
+	}
+	var owner string
+	if e := conn.QueryRowContext(ctx, `SELECT owner FROM ss_objects WHERE lower(name) = lower(?)`, l.table).Scan(&owner); e == nil {
+		return usagef("table name %q is taken by a view splitsmith made for %s", l.table, owner)
+	}
+	switch {
+	case errors.Is(err, sql.ErrNoRows):
+		if l.opts.Append {
+			return usagef("--append: table %q does not exist", l.table)
+		}
+		l.mode = "create"
+		l.firstRow = 1
+		return nil
+	case typ != "table":
+		return usagef("%q is a %s, not a table", name, typ)
+	}
+	l.table = name
+	var n int64
+	if err := conn.QueryRowContext(ctx, `SELECT count(*), coalesce(max(ss_row), 0) FROM `+quoteIdent(name)).Scan(&n, &l.firstRow); err != nil {
+		if !l.opts.Replace {
+			return usagef("table %q exists and was not made by splitsmith ingest; choose another --table", name)
+		}
+	}
+	l.firstRow++
+	switch {
+	case l.opts.Replace:
+		l.mode, l.firstRow = "replace", 1
+	case l.opts.Append:
+		l.mode = "append"
+		rows, err := conn.QueryContext(ctx, `SELECT name, logical_type, sql_type, reason, missing FROM ss_columns WHERE table_name = ? ORDER BY position`, name)
+		if err != nil {
+			return fmt.Errorf("read ss_columns: %w", err)
+		}
+		defer rows.Close()
+		for rows.Next() {
+			var c Column
+			var lt string
+			if err := rows.Scan(&c.Name, &lt, &c.SQLType, &c.Reason, &c.Missing); err != nil {
+				return err
+			}
+			if c.Type, err = ParseType(lt); err != nil {
+				return err
+			}
+			l.existing = append(l.existing, c)
+		}
+		if err := rows.Err(); err != nil {
+			return err
+		}
+		if len(l.existing) == 0 {
+			return usagef("--append: table %q was not made by splitsmith ingest (no ss_columns rows)", name)
+		}
+	default:
+		return usagef("table %q already exists (%d rows): give --replace to overwrite it or --append to add rows", name, n)
+	}
+	return nil
+}
+
+func quoteIdent(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
+
+func statSize(path string) (int64, error) {
+	st, err := osStat(path)
+	if err != nil {
+		return 0, err
+	}
+	return st.Size(), nil
+}
+
+func (l *loader) progress(n int64) {
+	l.done += n
+	if l.opts.Progress != nil {
+		l.opts.Progress(l.done, l.total)
+	}
+}
+
+func (l *loader) isMissing(b []byte) bool {
+	if b == nil || len(b) == 0 {
+		return true
+	}
+	for _, m := range l.missing {
+		if len(m) == len(b) && string(m) == string(b) {
+			return true
+		}
+	}
+	return false
+}
+
+// checkHeader validates one input's header and matches it against the columns so far.
+func (l *loader) checkHeader(s *source, hdr []string, line int64) error {
+	bad := func(format string, a ...any) error {
+		return &Problem{Source: s.name, Line: line, Reason: fmt.Sprintf(format, a...)}
+	}
+	seen := map[string]int{}
+	for i, h := range hdr {
+		if strings.TrimSpace(h) == "" {
+			return bad("column %d has an empty name", i+1)
+		}
+		if err := l.opts.CheckName("column", h); err != nil {
+			return bad("column %d: %v", i+1, err)
+		}
+		k := strings.ToLower(h)
+		if j, ok := seen[k]; ok {
+			return bad("duplicate column name %q (columns %d and %d; names are compared ignoring case)", h, j+1, i+1)
+		}
+		seen[k] = i
+	}
+	want, from := l.cols, ""
+	if want == nil && l.existing != nil {
+		for _, c := range l.existing {
+			want = append(want, c.Name)
+		}
+		from = "table " + strconv.Quote(l.table)
+	} else if want != nil {
+		from = l.srcs[0].name
+	}
+	if want == nil {
+		l.cols = hdr
+		return nil
+	}
+	for i := 0; i < len(want) || i < len(hdr); i++ {
+		switch {
+		case i >= len(hdr):
+			return bad("columns differ from %s: it has %d columns, this input %d (column %d %q is missing)", from, len(want), len(hdr), i+1, want[i])
+		case i >= len(want):
+			return bad("columns differ from %s: it has %d columns, this input %d (extra column %d %q)", from, len(want), len(hdr), i+1, hdr[i])
+		case hdr[i] != want[i]:
+			return bad("columns differ from %s: column %d is %q here, %q there", from, i+1, hdr[i], want[i])
+		}
+	}
+	if l.cols == nil {
+		l.cols = hdr
+	}
+	return nil
+}
+
+// setupTypes fixes which columns have a given type (--schema or the appended table).
+func (l *loader) setupTypes() error {
+	l.stats = make([]colStat, len(l.cols))
+	l.lenient = make([]bool, len(l.cols))
+	for i := range l.stats {
+		l.stats[i].mask = mAll
+	}
+	index := map[string]int{}
+	for i, c := range l.cols {
+		index[strings.ToLower(c)] = i
+	}
+	var names []string
+	for n := range l.opts.Schema {
+		names = append(names, n)
+	}
+	sort.Strings(names)
+	for _, n := range names {
+		i, ok := index[strings.ToLower(n)]
+		if !ok {
+			return usagef("--schema: unknown column %q (columns: %s)", n, strings.Join(l.cols, ", "))
+		}
+		t := l.opts.Schema[n]
+		if l.existing != nil && l.existing[i].Type != t {
+			return usagef("--schema: column %q is %s in table %q; an append keeps the table's types", n, l.existing[i].Type, l.table)
+		}
+		l.stats[i].schema, l.stats[i].schemaType, l.lenient[i] = true, t, true
+	}
+	for i, c := range l.existing {
+		l.stats[i].schema, l.stats[i].schemaType, l.lenient[i] = true, c.Type, true
+	}
+	return nil
+}
+
+// rowProblem checks a record as a whole (reader problems, ragged rows, values that break a
+// given type) and returns nil for a good row.
+func (l *loader) rowProblem(s *source, r *record, conv *converter) *Problem {
+	p := func(col int, value, reason string) *Problem {
+		pr := &Problem{Source: s.name, Line: r.line, Value: value, Reason: reason, Raw: clipRaw(r.raw)}
+		if col > 0 && col <= len(l.cols) {
+			pr.Column = l.cols[col-1]
+		}
+		return pr
+	}
+	if r.problem != "" {
+		return p(r.column, r.value, r.problem)
+	}
+	if len(r.fields) != len(l.cols) {
+		return p(0, "", fmt.Sprintf("ragged row: %d fields, the header has %d", len(r.fields), len(l.cols)))
+	}
+	for i, b := range r.fields {
+		if !l.lenient[i] || l.isMissing(b) {
+			continue
+		}
+		if !conv.ok(l.stats[i].schemaType, true, b) {
+			return p(i+1, string(b), fmt.Sprintf("cannot parse %q as %s", clip(string(b)), l.stats[i].schemaType))
+		}
+	}
+	return nil
+}
+
+func clipRaw(b []byte) string {
+	if len(b) > 4096 {
+		return string(b[:4096]) + "…"
+	}
+	return string(b)
+}
+
+func (l *loader) keep(p *Problem) {
+	if len(l.problems) < l.opts.MaxProblems {
+		l.problems = append(l.problems, *p)
+	}
+}
+
+// pass1 reads every input once: headers, problems, type inference, size and SHA-256.
+func (l *loader) pass1(ctx context.Context) error {
+	conv := &converter{}
+	for si, s := range l.srcs {
+		rr, done, err := s.open(true, l.progress)
+		if err != nil {
+			return err
+		}
+		err = l.scan(ctx, si, s, rr, conv)
+		done()
+		if err != nil {
+			return err
+		}
+	}
+	for i := range l.cols {
+		t, _ := l.stats[i].decide()
+		l.types = append(l.types, t)
+	}
+	return nil
+}
+
+func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, conv *converter) error {
+	hdr, line, err := rr.header()
+	if err != nil {
+		if errors.Is(err, errEmpty) {
+			return &Problem{Source: s.name, Reason: "empty input: no header line"}
+		}
+		if line > 0 {
+			return &Problem{Source: s.name, Line: line, Reason: err.Error()}
+		}
+		return fmt.Errorf("read %s: %w", s.name, err)
+	}
+	if err := l.checkHeader(s, hdr, line); err != nil {
+		return err
+	}
+	if si == 0 {
+		if err := l.setupTypes(); err != nil {
+			return err
+		}
+	}
+	records := 0
+	for n := 0; ; n++ {
+		if n&1023 == 0 && ctx.Err() != nil {
+			return ctx.Err()
+		}
+		ok, err := rr.next()
+		if err != nil {
+			return fmt.Errorf("read %s: %w", s.name, err)
+		}
+		if !ok {
+			break
+		}
+		records++
+		r := rr.rec()
+		if p := l.rowProblem(s, r, conv); p != nil {
+			if l.opts.OnError == "fail" {
+				return p
+			}
+			l.keep(p)
+			continue
+		}
+		for i, b := range r.fields {
+			if l.isMissing(b) {
+				l.stats[i].missing++
+			} else {
+				l.stats[i].observe(b, s.name, r.line)
+			}
+		}
+	}
+	if records == 0 {
+		return &Problem{Source: s.name, Line: line, Reason: "header only: no data rows"}
+	}
+	return nil
+}
+
+// create makes (or replaces) the table.
+func (l *loader) create(ctx context.Context, conn *sql.Conn) error {
+	if l.mode == "append" {
+		return nil
+	}
+	if l.mode == "replace" {
+		for _, q := range []string{
+			`DROP TABLE ` + quoteIdent(l.table),
+			`DELETE FROM ss_columns WHERE table_name = ?`,
+			`DELETE FROM ss_sources WHERE table_name = ?`,
+			`DELETE FROM ss_rejects WHERE table_name = ?`,
+		} {
+			var err error
+			if strings.Contains(q, "?") {
+				_, err = conn.ExecContext(ctx, q, l.table)
+			} else {
+				_, err = conn.ExecContext(ctx, q)
+			}
+			if err != nil {
+				return fmt.Errorf("replace %s: %w", l.table, err)
+			}
+		}
+	}
+	var b strings.Builder
+	b.WriteString("CREATE TABLE " + quoteIdent(l.table) + " (\n  ss_row INTEGER PRIMARY KEY,\n  ss_source TEXT NOT NULL,\n  ss_line INTEGER NOT NULL,\n  ss_digest INTEGER NOT NULL")
+	for i, c := range l.cols {
+		b.WriteString(",\n  " + quoteIdent(c) + " " + l.types[i].SQLType())
+	}
+	b.WriteString("\n)")
+	if _, err := conn.ExecContext(ctx, b.String()); err != nil {
+		return fmt.Errorf("create table %s: %w", l.table, err)
+	}
+	return nil
+}
+
+// record writes ss_sources and ss_columns and fills the result's descriptions.
+func (l *loader) record(ctx context.Context, conn *sql.Conn, res *Result) error {
+	schema := map[string]string{}
+	for n, t := range l.opts.Schema {
+		schema[n] = t.String()
+	}
+	for _, s := range l.srcs {
+		opt, _ := json.Marshal(map[string]any{
+			"format": s.format, "gzip": s.gz, "on_error": l.opts.OnError, "missing": l.opts.Missing,
+			"schema": schema, "mode": l.mode,
+		})
+		if _, err := conn.ExecContext(ctx, `INSERT INTO ss_sources(run_id, table_name, path, size, sha256, format, rows_loaded, rows_skipped, rows_rejected, options_json) VALUES(?,?,?,?,?,?,?,?,?,?)`,
+			l.opts.RunID, l.table, s.name, s.size, s.sha256, s.format, s.rows, s.skipped, s.rejected, string(opt)); err != nil {
+			return fmt.Errorf("record source %s: %w", s.name, err)
+		}
+		res.Sources = append(res.Sources, SourceResult{Name: s.name, Format: s.format, Gzip: s.gz, Size: s.size, SHA256: s.sha256, Rows: s.rows, Skipped: s.skipped, Rejected: s.rejected})
+	}
+	for i, c := range l.cols {
+		t, reason := l.stats[i].decide()
+		miss := l.stats[i].missing
+		if l.existing != nil {
+			reason = l.existing[i].Reason
+			if _, err := conn.ExecContext(ctx, `UPDATE ss_columns SET missing = missing + ? WHERE table_name = ? AND position = ?`, miss, l.table, i+1); err != nil {
+				return fmt.Errorf("record columns: %w", err)
+			}
+			miss += l.existing[i].Missing
+		} else if _, err := conn.ExecContext(ctx, `INSERT INTO ss_columns(table_name, position, name, logical_type, sql_type, reason, missing) VALUES(?,?,?,?,?,?,?)`,
+			l.table, i+1, c, t.String(), t.SQLType(), reason, miss); err != nil {
+			return fmt.Errorf("record columns: %w", err)
+		}
+		res.Columns = append(res.Columns, Column{Name: c, Type: t, SQLType: t.SQLType(), Reason: reason, Missing: miss})
+	}
+	var q strings.Builder
+	q.WriteString("SELECT ss_row FROM " + quoteIdent(l.table) + " WHERE ss_digest IS NOT ingest_digest(")
+	for i, c := range l.cols {
+		if i > 0 {
+			q.WriteString(", ")
+		}
+		q.WriteString(quoteIdent(c))
+	}
+	q.WriteString(") ORDER BY ss_row")
+	res.DigestCheckSQL = q.String()
+	res.Problems = l.problems
+	return nil
+}
+
+// converter turns field bytes into stored values.
+type converter struct {
+	ts []byte
+}
+
+func (c *converter) ok(t Type, lenient bool, b []byte) bool {
+	_, ok := c.value(t, lenient, b)
+	return ok
+}
+
+// value converts a non-missing field to its stored value: int64, float64 or string.
+func (c *converter) value(t Type, lenient bool, b []byte) (driver.Value, bool) {
+	switch t {
+	case TypeInteger:
+		if v, ok := parseIntStrict(b); ok {
+			return v, true
+		}
+		if lenient {
+			if v, err := strconv.ParseInt(string(b), 10, 64); err == nil {
+				return v, true
+			}
+		}
+		return nil, false
+	case TypeReal:
+		if !lenient && classifyNumber(b)&mReal == 0 {
+			return nil, false
+		}
+		v, err := strconv.ParseFloat(string(b), 64)
+		if err != nil || v-v != 0 {
+			return nil, false
+		}
+		return v, true
+	case TypeBoolean:
+		if v, ok := parseBoolStrict(b); ok {
+			return b2i(v), true
+		}
+		if lenient {
+			switch strings.ToLower(string(b)) {
+			case "yes", "y", "t", "1":
+				return int64(1), true
+			case "no", "n", "f", "0":
+				return int64(0), true
+			}
+		}
+		return nil, false
+	case TypeDate:
+		if isDate(b) {
+			return string(b), true
+		}
+		return nil, false
+	case TypeTimestamp:
+		var ok bool
+		c.ts, ok, _ = canonTimestamp(b, c.ts[:0])
+		if ok {
+			return string(c.ts), true
+		}
+		return nil, false
+	}
+	return string(b), true
+}
+
+func b2i(v bool) int64 {
+	if v {
+		return 1
+	}
+	return 0
+}

@@ -346,7 +346,7 @@ func profScalar(kind string, v any) (float64, bool) {
 			return float64(x), true
 		}
 	case float64:
-		if kind == kindNumber {
+		if kind == kindNumber && !math.IsInf(x, 0) && !math.IsNaN(x) {
 			return x, true
 		}
 	case string:

@@ -21,7 +21,7 @@ var ErrProfileUsage = errors.New("profile")
 // ProfileOptions say what to profile.
 type ProfileOptions struct {
 	Table    string
-	Key      []string               // columns that should identify a row (duplicate_key check)
+	Key      []string                // columns that should identify a row (duplicate_key check)
 	Progress func(done, total int64) // columns done of total; may be nil
 }
 

@@ -3,7 +3,15 @@ package estimate
 import (
 	"encoding/json"
 	"errors"
+	"fmt"
 	"math"
+	"math/rand/v2"
+	"runtime"
+	"sort"
+	"strconv"
+	"strings"
+	"sync"
+	"sync/atomic"
 )
 
 // Point is one measured (n, error) pair: the holdout (or training, in Options.Train) error
@@ -112,8 +120,628 @@ func finitePtr(v float64) *float64 {
 	return &v
 }
 
+// Errors Extrapolate returns for bad input (wrapped with detail).
+var (
+	ErrTooFewSizes = errors.New("too few distinct sizes")
+	ErrBadPoint    = errors.New("bad point")
+	ErrBadTarget   = errors.New("bad target")
+)
+
+// MinFitSizes is the fewest distinct sizes Extrapolate accepts: a 3-parameter family on
+// 3 sizes is exactly determined, so one more is needed to see any misfit.
+const MinFitSizes = 4
+
+// curveData is the per-size summary the fits work on.
+type curveData struct {
+	n, e, w []float64
+}
+
 // Extrapolate fits the curve families to points and extrapolates the chosen one (see the
 // package documentation). nil opts means the defaults.
 func Extrapolate(points []Point, opts *Options) (*Result, error) {
-	return nil, errors.New("estimate: not built yet")
+	o := Options{}
+	if opts != nil {
+		o = *opts
+	}
+	if len(o.Families) == 0 {
+		for _, f := range Families {
+			o.Families = append(o.Families, f.Name)
+		}
+	}
+	fams := make([]*Family, len(o.Families))
+	for i, name := range o.Families {
+		f, err := FamilyByName(name)
+		if err != nil {
+			return nil, err
+		}
+		fams[i] = f
+	}
+	if o.Bootstrap == 0 {
+		o.Bootstrap = 1000
+	}
+	if o.Bootstrap < 0 {
+		return nil, fmt.Errorf("bootstrap count %d must be positive", o.Bootstrap)
+	}
+	if o.Level == 0 {
+		o.Level = 0.95
+	}
+	if !(o.Level > 0 && o.Level < 1) {
+		return nil, fmt.Errorf("confidence level %g must lie in (0, 1)", o.Level)
+	}
+	groups, err := groupPoints(points, "point")
+	if err != nil {
+		return nil, err
+	}
+	if len(groups) < MinFitSizes {
+		return nil, fmt.Errorf("%w: %d distinct sizes, need at least %d to fit and check a curve", ErrTooFewSizes, len(groups), MinFitSizes)
+	}
+	maxErr := 0.0
+	for _, p := range points {
+		maxErr = math.Max(maxErr, p.Err)
+	}
+	if o.Target != 0 && !(o.Target > 0 && o.Target < maxErr) {
+		return nil, fmt.Errorf("%w: target %g must lie in (0, %g), the largest measured error", ErrBadTarget, o.Target, maxErr)
+	}
+	if o.At < 0 || math.IsNaN(o.At) || math.IsInf(o.At, 0) {
+		return nil, fmt.Errorf("planned size %g must be positive", o.At)
+	}
+	mode := "repeats"
+	for _, g := range groups {
+		if len(g.errs) < 2 {
+			mode = "residuals"
+		}
+	}
+	data := summarise(groups, mode == "repeats")
+	m := len(groups)
+	hold := o.Holdout
+	if hold == 0 {
+		hold = max(1, m/4)
+	}
+	if hold < 0 || hold >= m {
+		return nil, fmt.Errorf("holdout %d must lie in [1, %d)", hold, m)
+	}
+
+	res := &Result{Level: o.Level, Caution: Caution, Reachable: true}
+	for _, g := range groups {
+		res.Sizes = append(res.Sizes, g.n)
+		res.Repeats = append(res.Repeats, len(g.errs))
+	}
+	res.MeanErr = append(res.MeanErr, data.e...)
+	bestIdx := -1
+	for i, fam := range fams {
+		fit, err := fitFamily(fam, data, nil)
+		if err != nil {
+			fit = Fit{Family: fam.Name, Params: nanSlice(len(fam.Params)), StdErr: nanSlice(len(fam.Params)), RSS: math.NaN(), AIC: math.NaN()}
+		}
+		fit.BacktestErr = backtest(fam, data, hold)
+		res.Fits = append(res.Fits, fit)
+		if err == nil && better(fit, res.Fits, bestIdx) {
+			bestIdx = i
+		}
+	}
+	if bestIdx < 0 {
+		return nil, errors.New("no curve family could be fitted to these points")
+	}
+	res.Best = res.Fits[bestIdx]
+	fam := fams[bestIdx]
+
+	// statistics of one fit
+	stats := func(p []float64) [3]float64 {
+		s := [3]float64{fam.Asymptote(p), math.NaN(), math.NaN()}
+		if o.Target > 0 {
+			s[1] = solveNStar(fam, o.Target, p)
+		}
+		if o.At > 0 {
+			s[2] = fam.F(o.At, p)
+		}
+		return s
+	}
+	est := stats(res.Best.Params)
+	boot, used := bootstrapStats(fam, groups, data, res.Best, mode, o, stats)
+	jack := jackknifeStats(fam, groups, data, res.Best, mode, stats)
+	res.Bootstrap = used
+	iv := func(k int) Interval {
+		b := make([]float64, len(boot))
+		for i := range boot {
+			b[i] = boot[i][k]
+		}
+		j := make([]float64, len(jack))
+		for i := range jack {
+			j[i] = jack[i][k]
+		}
+		return BCaInterval(est[k], b, j, o.Level)
+	}
+	res.Asymptote = iv(0)
+	if fam.Name == "pow2" || fam.Name == "log2" {
+		res.Asymptote = Interval{Method: "none"}
+	}
+	if o.Target > 0 {
+		ns := iv(1)
+		res.NStar = &ns
+		res.Reachable = o.Target > res.Asymptote.Hi && !math.IsInf(est[1], 1)
+	}
+	if o.At > 0 {
+		a := iv(2)
+		res.AtErr = &a
+	}
+	if len(o.Train) > 0 {
+		gd, err := gapDiagnosis(groups, o.Train)
+		if err != nil {
+			return nil, err
+		}
+		res.Gap = gd
+	}
+	res.Verdict = verdict(res, o)
+	return res, nil
+}
+
+func nanSlice(k int) []float64 {
+	s := make([]float64, k)
+	for i := range s {
+		s[i] = math.NaN()
+	}
+	return s
+}
+
+// better reports whether fit beats fits[best]: the smaller backtest error wins; AIC decides
+// when either backtest is missing or they tie.
+func better(fit Fit, fits []Fit, best int) bool {
+	if best < 0 {
+		return true
+	}
+	b := fits[best]
+	fb, bb := !math.IsNaN(fit.BacktestErr), !math.IsNaN(b.BacktestErr)
+	switch {
+	case fb && bb && fit.BacktestErr != b.BacktestErr:
+		return fit.BacktestErr < b.BacktestErr
+	case fb != bb:
+		return fb
+	}
+	return fit.AIC < b.AIC
+}
+
+type sizeGroup struct {
+	n    float64
+	errs []float64
+	reps []int
+}
+
+// groupPoints validates points and groups them by N, ascending.
+func groupPoints(points []Point, what string) ([]sizeGroup, error) {
+	byN := map[float64]*sizeGroup{}
+	for i, p := range points {
+		if !(p.N > 0) || math.IsInf(p.N, 0) {
+			return nil, fmt.Errorf("%w: %s %d: n = %v must be a positive number", ErrBadPoint, what, i+1, p.N)
+		}
+		if math.IsNaN(p.Err) || math.IsInf(p.Err, 0) || p.Err < 0 {
+			return nil, fmt.Errorf("%w: %s %d: error = %v must be a non-negative number", ErrBadPoint, what, i+1, p.Err)
+		}
+		g := byN[p.N]
+		if g == nil {
+			g = &sizeGroup{n: p.N}
+			byN[p.N] = g
+		}
+		g.errs = append(g.errs, p.Err)
+		g.reps = append(g.reps, p.Repeat)
+	}
+	out := make([]sizeGroup, 0, len(byN))
+	for _, g := range byN {
+		out = append(out, *g)
+	}
+	sort.Slice(out, func(i, j int) bool { return out[i].n < out[j].n })
+	return out, nil
+}
+
+// summarise gives per-size means and weights 1/var(mean), the variances smoothed in ln n
+// (smoothLogVar). The variance of each mean is floored at a tenth of the median one, so a size whose few repeats happen to agree does not
+// dominate the fit (common practice, no source). Without repeats every weight is 1.
+func summarise(groups []sizeGroup, weighted bool) curveData {
+	d := curveData{n: make([]float64, len(groups)), e: make([]float64, len(groups)), w: make([]float64, len(groups))}
+	vars := make([]float64, len(groups))
+	for i, g := range groups {
+		d.n[i] = g.n
+		var s float64
+		for _, v := range g.errs {
+			s += v
+		}
+		mean := s / float64(len(g.errs))
+		d.e[i] = mean
+		if len(g.errs) > 1 {
+			var ss float64
+			for _, v := range g.errs {
+				ss += (v - mean) * (v - mean)
+			}
+			vars[i] = ss / float64(len(g.errs)-1) / float64(len(g.errs))
+		}
+	}
+	if !weighted {
+		for i := range d.w {
+			d.w[i] = 1
+		}
+		return d
+	}
+	// Variance estimates from a few repeats are noisy (a χ² with R−1 degrees of freedom), and
+	// weights that chase that noise make the fit worse than unweighted: smooth ln var(mean)
+	// as a straight line in ln n, the usual shape of the spread of a learning curve.
+	if sm := smoothLogVar(d.n, vars); sm != nil {
+		vars = sm
+	}
+	med := append([]float64(nil), vars...)
+	sort.Float64s(med)
+	floor := 0.1 * med[len(med)/2]
+	if floor <= 0 {
+		_, hi := minmax(d.e)
+		floor = math.Max(1e-12*hi*hi, 1e-300)
+	}
+	var sw float64
+	for i, v := range vars {
+		d.w[i] = 1 / math.Max(v, floor)
+		sw += d.w[i]
+	}
+	for i := range d.w {
+		d.w[i] *= float64(len(d.w)) / sw
+	}
+	return d
+}
+
+// smoothLogVar fits ln v = α + β ln n by least squares over the positive variances and
+// returns the fitted variances; nil when fewer than 3 are positive.
+func smoothLogVar(n, v []float64) []float64 {
+	var sx, sy, sxx, sxy, k float64
+	for i := range n {
+		if v[i] > 0 {
+			x, y := math.Log(n[i]), math.Log(v[i])
+			sx += x
+			sy += y
+			sxx += x * x
+			sxy += x * y
+			k++
+		}
+	}
+	if k < 3 || k*sxx-sx*sx <= 0 {
+		return nil
+	}
+	beta := (k*sxy - sx*sy) / (k*sxx - sx*sx)
+	alpha := (sy - beta*sx) / k
+	out := make([]float64, len(n))
+	for i := range n {
+		out[i] = math.Exp(alpha + beta*math.Log(n[i]))
+	}
+	return out
+}
+
+// fitFamily fits fam to the per-size means by weighted LM from several starting points
+// (the family's own guess, the asymptote at 0 and at half the smallest mean error, and hint
+// when given), keeping the smallest RSS.
+func fitFamily(fam *Family, d curveData, hint []float64) (Fit, error) {
+	k := len(fam.Params)
+	if len(d.n) < k {
+		return Fit{}, fmt.Errorf("%s: %d sizes for %d parameters", fam.Name, len(d.n), k)
+	}
+	starts := [][]float64{}
+	if hint != nil {
+		starts = append(starts, hint)
+	}
+	s0 := fam.Start(d.n, d.e)
+	starts = append(starts, s0)
+	if fam.Name == "pow3" || fam.Name == "exp3" {
+		lo, _ := minmax(d.e)
+		for _, a := range []float64{0, 0.5 * lo} {
+			s := append([]float64(nil), s0...)
+			s[0] = a
+			if fam.Name == "pow3" {
+				s[1], s[2] = logLogLine(d.n, d.e, a)
+			}
+			starts = append(starts, s)
+		}
+	}
+	model := Model{F: fam.F, Grad: fam.Grad}
+	var best *LSResult
+	for _, s := range starts {
+		r, err := LeastSquares(model, d.n, d.e, d.w, s, &LSOptions{Lower: fam.Lower, Upper: fam.Upper, MaxIter: 500, XTol: 1e-10, FTol: 1e-12})
+		if r == nil || (err != nil && !errors.Is(err, ErrNoConvergence)) {
+			continue
+		}
+		if best == nil || r.RSS < best.RSS {
+			best = r
+		}
+		if hint != nil && err == nil {
+			break // a bootstrap refit from the full fit's parameters: one start is enough
+		}
+	}
+	if best == nil || math.IsNaN(best.RSS) {
+		return Fit{}, fmt.Errorf("%s: fit failed", fam.Name)
+	}
+	m := float64(len(d.n))
+	rss := math.Max(best.RSS, 1e-300*m)
+	return Fit{
+		Family: fam.Name,
+		Params: best.Params,
+		StdErr: best.StdErr,
+		RSS:    best.RSS,
+		AIC:    m*math.Log(rss/m) + 2*float64(k+1),
+	}, nil
+}
+
+// backtest refits on all but the hold largest sizes and returns the mean relative error of
+// predicting them; NaN when too few sizes remain to fit the family.
+func backtest(fam *Family, d curveData, hold int) float64 {
+	m := len(d.n)
+	keep := m - hold
+	if keep < len(fam.Params) || keep < 2 {
+		return math.NaN()
+	}
+	sub := curveData{n: d.n[:keep], e: d.e[:keep], w: d.w[:keep]}
+	fit, err := fitFamily(fam, sub, nil)
+	if err != nil {
+		return math.NaN()
+	}
+	var s float64
+	for i := keep; i < m; i++ {
+		pred := fam.F(d.n[i], fit.Params)
+		s += math.Abs(pred-d.e[i]) / math.Max(math.Abs(d.e[i]), 1e-12)
+	}
+	return s / float64(hold)
+}
+
+// solveNStar is n* for the family: its closed form, or bisection on ln n when it has none.
+func solveNStar(fam *Family, T float64, p []float64) float64 {
+	if fam.NStar != nil {
+		return fam.NStar(T, p)
+	}
+	return NStarNumeric(func(n float64) float64 { return fam.F(n, p) }, T)
+}
+
+// NStarNumeric finds the smallest n ≥ 1 with f(n) ≤ T for a decreasing curve f, by
+// bracketing on a doubling grid up to 10^15 and then bisecting ln n to 1e-12 relative; +Inf
+// when f stays above T.
+func NStarNumeric(f func(n float64) float64, T float64) float64 {
+	lo := 1.0
+	if f(lo) <= T {
+		return lo
+	}
+	hi := 2.0
+	for f(hi) > T {
+		lo = hi
+		hi *= 2
+		if hi > 1e15 {
+			return inf
+		}
+	}
+	a, b := math.Log(lo), math.Log(hi)
+	for i := 0; i < 200 && b-a > 1e-13*math.Max(1, math.Abs(b)); i++ {
+		mid := 0.5 * (a + b)
+		if f(math.Exp(mid)) > T {
+			a = mid
+		} else {
+			b = mid
+		}
+	}
+	return math.Exp(b)
+}
+
+// bootstrapStats refits the chosen family on B resamples: over repeats within each size
+// when every size has at least two (mode "repeats"; deviations from the size's mean inflated
+// by sqrt(R/(R−1)), Davison & Hinkley 1997, Bootstrap Methods, §3.2), otherwise over the fit's weighted
+// residuals, inflated by sqrt(m/(m−k)) for the degrees of freedom the fit used. Draws run in
+// parallel; each draw has its own PCG stream (seed, draw), so results do not depend on
+// scheduling. Draws whose refit fails are dropped.
+func bootstrapStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode string, o Options, stats func([]float64) [3]float64) ([][3]float64, int) {
+	B := o.Bootstrap
+	out := make([][3]float64, B)
+	okv := make([]bool, B)
+	m := len(d.n)
+	k := len(fam.Params)
+	var resid []float64
+	if mode == "residuals" {
+		infl := math.Sqrt(float64(m) / math.Max(float64(m-k), 1))
+		for i := range d.n {
+			resid = append(resid, math.Sqrt(d.w[i])*(d.e[i]-fam.F(d.n[i], best.Params))*infl)
+		}
+	}
+	var done atomic.Int64
+	workers := runtime.GOMAXPROCS(0)
+	var wg sync.WaitGroup
+	next := atomic.Int64{}
+	for wkr := 0; wkr < workers; wkr++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				b := int(next.Add(1) - 1)
+				if b >= B {
+					return
+				}
+				rng := rand.New(rand.NewPCG(o.Seed, uint64(b)+1))
+				var dd curveData
+				if mode == "repeats" {
+					gs := make([]sizeGroup, len(groups))
+					for i, g := range groups {
+						// resampled deviations are scaled by sqrt(R/(R−1)) so the resampled
+						// mean has the unbiased variance s²/R, not ((R−1)/R)·s²/R
+						e := make([]float64, len(g.errs))
+						R := float64(len(g.errs))
+						infl := math.Sqrt(R / (R - 1))
+						for j := range e {
+							e[j] = d.e[i] + infl*(g.errs[rng.IntN(len(g.errs))]-d.e[i])
+						}
+						gs[i] = sizeGroup{n: g.n, errs: e}
+					}
+					dd = summarise(gs, true)
+				} else {
+					dd = curveData{n: d.n, e: make([]float64, m), w: d.w}
+					for i := range dd.e {
+						dd.e[i] = fam.F(d.n[i], best.Params) + resid[rng.IntN(m)]/math.Sqrt(d.w[i])
+					}
+				}
+				fit, err := fitFamily(fam, dd, best.Params)
+				if err == nil {
+					out[b] = stats(fit.Params)
+					okv[b] = true
+				}
+				if o.Progress != nil {
+					o.Progress(done.Add(1), int64(B))
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	kept := out[:0]
+	for b := range out {
+		if okv[b] {
+			kept = append(kept, out[b])
+		}
+	}
+	return kept, len(kept)
+}
+
+// jackknifeStats recomputes the statistics leaving out one measurement at a time (mode
+// "repeats") or one size at a time (mode "residuals"), for the BCa acceleration.
+func jackknifeStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode string, stats func([]float64) [3]float64) [][3]float64 {
+	var out [][3]float64
+	if mode == "repeats" {
+		for i, g := range groups {
+			for j := range g.errs {
+				gs := make([]sizeGroup, len(groups))
+				copy(gs, groups)
+				e := make([]float64, 0, len(g.errs)-1)
+				e = append(e, g.errs[:j]...)
+				e = append(e, g.errs[j+1:]...)
+				gs[i] = sizeGroup{n: g.n, errs: e}
+				fit, err := fitFamily(fam, summarise(gs, len(e) > 1), best.Params)
+				if err != nil {
+					return nil
+				}
+				out = append(out, stats(fit.Params))
+			}
+		}
+		return out
+	}
+	for i := range d.n {
+		dd := curveData{}
+		for j := range d.n {
+			if j != i {
+				dd.n = append(dd.n, d.n[j])
+				dd.e = append(dd.e, d.e[j])
+				dd.w = append(dd.w, d.w[j])
+			}
+		}
+		fit, err := fitFamily(fam, dd, best.Params)
+		if err != nil {
+			return nil
+		}
+		out = append(out, stats(fit.Params))
+	}
+	return out
+}
+
+// gapDiagnosis compares training and holdout error by size.
+func gapDiagnosis(groups []sizeGroup, train []Point) (*GapDiagnosis, error) {
+	tg, err := groupPoints(train, "training point")
+	if err != nil {
+		return nil, err
+	}
+	tmean := map[float64]float64{}
+	for _, g := range tg {
+		var s float64
+		for _, v := range g.errs {
+			s += v
+		}
+		tmean[g.n] = s / float64(len(g.errs))
+	}
+	var ns, gaps []float64
+	gd := &GapDiagnosis{Ratio: math.NaN(), Gap: math.NaN(), Exponent: math.NaN()}
+	for _, g := range groups {
+		tm, ok := tmean[g.n]
+		if !ok {
+			continue
+		}
+		var s float64
+		for _, v := range g.errs {
+			s += v
+		}
+		hm := s / float64(len(g.errs))
+		gd.Gap = hm - tm
+		if hm > 0 {
+			gd.Ratio = tm / hm
+		}
+		if hm-tm > 0 {
+			ns = append(ns, g.n)
+			gaps = append(gaps, hm-tm)
+		}
+	}
+	if math.IsNaN(gd.Gap) {
+		return nil, fmt.Errorf("%w: no training point shares a size with the holdout points", ErrBadPoint)
+	}
+	if len(ns) >= 2 {
+		_, c := logLogLine(ns, gaps, 0)
+		gd.Exponent = c
+	}
+	gd.VarianceLimited = gd.Ratio < 0.5
+	return gd, nil
+}
+
+// verdict writes the planner's answer in plain sentences.
+func verdict(r *Result, o Options) string {
+	var b strings.Builder
+	pct := fmt.Sprintf("%g%%", 100*r.Level)
+	largest := r.Sizes[len(r.Sizes)-1]
+	fmt.Fprintf(&b, "Best curve: %s (%s)", r.Best.Family, familyDoc(r.Best.Family))
+	if !math.IsNaN(r.Best.BacktestErr) {
+		fmt.Fprintf(&b, "; refitted without the largest sizes it predicted them within %.1f%% on average (backtest)", 100*r.Best.BacktestErr)
+	}
+	b.WriteString(".")
+	if r.Asymptote.Method != "none" {
+		fmt.Fprintf(&b, " Its asymptote, the error more data cannot remove, is %s (%s interval %s to %s).", num(r.Asymptote.Est), pct, num(r.Asymptote.Lo), num(r.Asymptote.Hi))
+	}
+	if r.NStar != nil {
+		T := o.Target
+		switch {
+		case math.IsInf(r.NStar.Est, 1) || T <= r.Asymptote.Est:
+			fmt.Fprintf(&b, " The target %s is at or below the asymptote: not reachable with this capacity; more data will not get there, more capacity might.", num(T))
+		case !r.Reachable:
+			fmt.Fprintf(&b, " The target %s lies within the asymptote's interval: it may not be reachable with this capacity (the point estimate is n* ≈ %s, upper bound %s); more capacity might be needed.", num(T), num(r.NStar.Est), num(r.NStar.Hi))
+		default:
+			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), num(math.Ceil(r.NStar.Est)), pct, num(math.Ceil(r.NStar.Lo)), num(math.Ceil(r.NStar.Hi)), r.NStar.Est/largest)
+			if r.NStar.Est > 10*largest {
+				b.WriteString(" That is far beyond the measured sizes: treat it as a rough guide.")
+			}
+		}
+	}
+	if r.AtErr != nil {
+		fmt.Fprintf(&b, " At n = %s the expected error is %s (%s interval %s to %s).", num(o.At), num(r.AtErr.Est), pct, num(r.AtErr.Lo), num(r.AtErr.Hi))
+	}
+	if g := r.Gap; g != nil {
+		if g.VarianceLimited {
+			fmt.Fprintf(&b, " Training error is %.0f%% of holdout error at the largest size: the model is variance-limited (overfitting)", 100*g.Ratio)
+			if !math.IsNaN(g.Exponent) {
+				fmt.Fprintf(&b, "; the gap shrinks about as n^(−%.2g), so more data helps, and so would less capacity or more regularisation.", g.Exponent)
+			} else {
+				b.WriteString("; more data, less capacity or more regularisation would help.")
+			}
+		} else if r.NStar != nil && !r.Reachable {
+			b.WriteString(" Training error is close to holdout error: the model is bias-limited (underfitting).")
+		}
+	}
+	b.WriteString(" " + Caution)
+	return b.String()
+}
+
+func familyDoc(name string) string {
+	f, err := FamilyByName(name)
+	if err != nil {
+		return ""
+	}
+	return f.Doc
+}
+
+// num prints a value with 4 significant digits ("unbounded" for +Inf).
+func num(v float64) string {
+	switch {
+	case math.IsInf(v, 1):
+		return "unbounded"
+	case math.IsNaN(v):
+		return "n/a"
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64)
 }

@@ -1,0 +1,172 @@
+package splits
+
+import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"fmt"
+	"math"
+	"slices"
+	"strconv"
+)
+
+// The hash specification (stated in full in the README, section "split"):
+//
+//	key bytes  the row's content digest ss_digest as 8 bytes, big-endian two's complement
+//	           (default); or, with key columns, the concatenation of each value's encoding
+//	           in the content-digest form: a tag byte (NULL 0x00, INTEGER 0x01, REAL 0x02,
+//	           TEXT 0x03), a 4-byte big-endian length, then the bytes (decimal ASCII for
+//	           INTEGER, strconv.FormatFloat(x, 'g', -1, 64) for REAL, UTF-8 for TEXT).
+//	h          the first 8 bytes, big-endian unsigned, of SHA-256(seed as 8 bytes
+//	           big-endian || key bytes)
+//	u          (h >> 11) / 2^53, a float64 in [0, 1), exact
+//	side       the first side i (in the spec's order) with u < c_i, where c_i is the running
+//	           float64 sum of the fractions f_1 + ... + f_i; the last side takes the rest.
+
+// HashU returns u in [0, 1) for key bytes and a seed (see the hash specification above).
+func HashU(key []byte, seed uint64) float64 {
+	h := sha256.New()
+	var s [8]byte
+	binary.BigEndian.PutUint64(s[:], seed)
+	h.Write(s[:])
+	h.Write(key)
+	var sum [32]byte
+	return uFromSum(h.Sum(sum[:0]))
+}
+
+func uFromSum(sum []byte) float64 {
+	return float64(binary.BigEndian.Uint64(sum[:8])>>11) / (1 << 53)
+}
+
+// hasher computes HashU for many keys without allocating.
+type hasher struct {
+	seed [8]byte
+	buf  []byte
+	sum  [32]byte
+}
+
+func newHasher(seed uint64) *hasher {
+	h := &hasher{buf: make([]byte, 0, 64)}
+	binary.BigEndian.PutUint64(h.seed[:], seed)
+	return h
+}
+
+func (h *hasher) u(key []byte) float64 {
+	h.buf = append(h.buf[:0], h.seed[:]...)
+	h.buf = append(h.buf, key...)
+	h.sum = sha256.Sum256(h.buf)
+	return uFromSum(h.sum[:])
+}
+
+func (h *hasher) uDigest(d int64) float64 {
+	h.buf = append(h.buf[:0], h.seed[:]...)
+	h.buf = binary.BigEndian.AppendUint64(h.buf, uint64(d))
+	h.sum = sha256.Sum256(h.buf)
+	return uFromSum(h.sum[:])
+}
+
+// DigestKey returns the key bytes of a content digest: 8 bytes, big-endian.
+func DigestKey(digest int64) []byte {
+	return binary.BigEndian.AppendUint64(nil, uint64(digest))
+}
+
+// AppendValue appends the content-digest encoding of one value (nil, int64, float64, string,
+// []byte, bool) to b.
+func AppendValue(b []byte, v any) ([]byte, error) {
+	put := func(tag byte, s string) []byte {
+		b = append(b, tag)
+		b = binary.BigEndian.AppendUint32(b, uint32(len(s)))
+		return append(b, s...)
+	}
+	switch x := v.(type) {
+	case nil:
+		return put(0x00, ""), nil
+	case int64:
+		return put(0x01, strconv.FormatInt(x, 10)), nil
+	case int:
+		return put(0x01, strconv.Itoa(x)), nil
+	case bool:
+		if x {
+			return put(0x01, "1"), nil
+		}
+		return put(0x01, "0"), nil
+	case float64:
+		if math.IsNaN(x) {
+			return put(0x00, ""), nil
+		}
+		return put(0x02, strconv.FormatFloat(x, 'g', -1, 64)), nil
+	case string:
+		return put(0x03, x), nil
+	case []byte:
+		return put(0x03, string(x)), nil
+	}
+	return b, fmt.Errorf("splits: key: unsupported value type %T", v)
+}
+
+// Key returns the key bytes of values (the content-digest encoding, concatenated).
+func Key(values ...any) ([]byte, error) {
+	var b []byte
+	var err error
+	for _, v := range values {
+		if b, err = AppendValue(b, v); err != nil {
+			return nil, err
+		}
+	}
+	return b, nil
+}
+
+// Cumulative returns the running float64 sums of the fractions, in order; the last is
+// forced to 1 so that every u in [0, 1) falls on a side.
+func Cumulative(fractions []float64) []float64 {
+	c := make([]float64, len(fractions))
+	s := 0.0
+	for i, f := range fractions {
+		s += f
+		c[i] = s
+	}
+	if len(c) > 0 {
+		c[len(c)-1] = 1
+	}
+	return c
+}
+
+// SideIndex returns the index of the first cumulative fraction greater than u.
+func SideIndex(u float64, cum []float64) int {
+	for i, c := range cum {
+		if u < c {
+			return i
+		}
+	}
+	return len(cum) - 1
+}
+
+// Bucket returns floor(u * n) for the key and seed: a bucket in 0..n-1.
+func Bucket(key []byte, seed uint64, n int) int {
+	if n <= 0 {
+		panic("splits: bucket count must be positive")
+	}
+	b := int(HashU(key, seed) * float64(n))
+	if b >= n {
+		b = n - 1
+	}
+	return b
+}
+
+// Seal returns the order-independent digest of a side: the lowercase hex SHA-256 of the
+// side's content digests sorted ascending as signed 64-bit integers (SQL's ORDER BY
+// ss_digest), each written as 8 bytes big-endian. Duplicates count. digests is sorted in
+// place.
+func Seal(digests []int64) string {
+	slices.Sort(digests)
+	h := sha256.New()
+	buf := make([]byte, 0, 8*1024)
+	for _, d := range digests {
+		buf = binary.BigEndian.AppendUint64(buf, uint64(d))
+		if len(buf) == cap(buf) {
+			h.Write(buf)
+			buf = buf[:0]
+		}
+	}
+	h.Write(buf)
+	return hex.EncodeToString(h.Sum(nil))
+}

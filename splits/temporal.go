@@ -1,0 +1,236 @@
+package splits
+
+import (
+	"math"
+	"sort"
+)
+
+// timeOrder returns row indices sorted by (time, ss_row).
+func timeOrder(d *data, rows []int) []int {
+	if rows == nil {
+		rows = make([]int, d.n)
+		for i := range rows {
+			rows[i] = i
+		}
+	}
+	sort.Slice(rows, func(i, j int) bool {
+		a, b := rows[i], rows[j]
+		if d.t[a] != d.t[b] {
+			return d.t[a] < d.t[b]
+		}
+		return d.rowID[a] < d.rowID[b]
+	})
+	return rows
+}
+
+func (s *Spec) gapValue(numeric bool) (float64, error) {
+	if s.Gap == "" {
+		return 0, nil
+	}
+	g, err := parseGap(s.Gap, numeric)
+	if err != nil {
+		return 0, fieldErr("gap", "%v", err)
+	}
+	return g, nil
+}
+
+// assignTime holds out the latest period. The sides are in time order; the boundary before
+// side i+1 is the cutoff, or the time of the row at position round(c_i * n) in (time, ss_row)
+// order, and every row at or after a boundary's time is on the later side (rows with equal
+// times never straddle a boundary). Then, for each boundary B between an earlier and a later
+// side, earlier-side rows are dropped when
+//
+//	gap:    time >= B - gap (or the last gap_rows rows before B, in time order)  → "gap"
+//	purge:  label_end >= B (the label was not known before the later period began) → "purge"
+//
+// which is the purging and embargo of López de Prado (2018, ch. 7) for a train period that
+// precedes its test period: no training label may overlap the test period, and a gap keeps
+// serially correlated rows next to the test period out of training. With group columns, an
+// entity whose rows fall on more than one side is handled by spec.Span (see Spec).
+func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
+	gap, err := spec.gapValue(d.numeric)
+	if err != nil {
+		return err
+	}
+	order := timeOrder(d, nil)
+	ns := len(spec.Sides)
+	bounds := make([]float64, ns-1) // time at which side i+1 starts
+	bpos := make([]int, ns-1)       // position in order where side i+1 starts
+	if spec.Cutoff != "" {
+		var c float64
+		var ok bool
+		if d.numeric {
+			_, _, ok = timeValue(spec.Cutoff, true)
+			c, _, _ = timeValue(spec.Cutoff, true)
+		} else {
+			c, ok = parseTimeText(spec.Cutoff)
+		}
+		if !ok {
+			return fieldErr("cutoff", "%q is not a %s like the values of %q", spec.Cutoff, timeKind(d.numeric), spec.Time)
+		}
+		bounds[0] = c
+		bpos[0] = sort.Search(d.n, func(k int) bool { return d.t[order[k]] >= c })
+	} else {
+		cum := 0.0
+		for i := 0; i < ns-1; i++ {
+			cum += fr[i]
+			p := int(math.Round(cum * float64(d.n)))
+			if p >= d.n {
+				bounds[i], bpos[i] = math.Inf(1), d.n
+				continue
+			}
+			b := d.t[order[p]]
+			bounds[i] = b
+			bpos[i] = sort.Search(d.n, func(k int) bool { return d.t[order[k]] >= b })
+		}
+	}
+	side := 0
+	for k, i := range order {
+		for side < ns-1 && k >= bpos[side] {
+			side++
+		}
+		a.side[i] = int16(side)
+	}
+	timeSide := append([]int16(nil), a.side...)
+	if len(spec.Group) > 0 {
+		applySpan(d, spec, fr, a, timeSide)
+	}
+	// Gap and purge, per boundary, on rows still on the earlier sides.
+	for b := 0; b < ns-1; b++ {
+		B := bounds[b]
+		if math.IsInf(B, 1) {
+			continue
+		}
+		for k := 0; k < bpos[b]; k++ {
+			i := order[k]
+			if a.side[i] < 0 || int(a.side[i]) > b {
+				continue
+			}
+			switch {
+			case spec.Gap != "" && d.t[i] >= B-gap:
+				a.side[i], a.reason[i] = -1, reasonGap
+			case spec.GapRows > 0 && k >= bpos[b]-spec.GapRows:
+				a.side[i], a.reason[i] = -1, reasonGap
+			case d.labelEnd != nil && d.labelEnd[i] >= B:
+				a.side[i], a.reason[i] = -1, reasonPurge
+			}
+		}
+	}
+	return nil
+}
+
+// applySpan resolves entities whose rows fall on more than one side of the time split:
+// drop (all their rows, reason "span"), earlier (all rows to the earliest side they touch),
+// entity (every entity takes the side of its hash under the fractions; its rows on another
+// time side are dropped, reason "span", so no entity is on two sides and time order holds).
+func applySpan(d *data, spec *Spec, fr []float64, a *assignment, timeSide []int16) {
+	ne := len(d.entKey)
+	lo := make([]int16, ne)
+	hi := make([]int16, ne)
+	for e := range lo {
+		lo[e], hi[e] = math.MaxInt16, -1
+	}
+	for i := 0; i < d.n; i++ {
+		e := d.entity[i]
+		lo[e] = min(lo[e], timeSide[i])
+		hi[e] = max(hi[e], timeSide[i])
+	}
+	spanning := 0
+	for e := 0; e < ne; e++ {
+		if lo[e] != hi[e] {
+			spanning++
+		}
+	}
+	cum := Cumulative(fr)
+	dropped := 0
+	for i := 0; i < d.n; i++ {
+		e := d.entity[i]
+		switch spec.Span {
+		case "drop":
+			if lo[e] != hi[e] {
+				a.side[i], a.reason[i] = -1, reasonSpan
+				dropped++
+			}
+		case "earlier":
+			a.side[i] = lo[e]
+		case "entity":
+			if s := int16(SideIndex(d.entU[e], cum)); s != timeSide[i] {
+				a.side[i], a.reason[i] = -1, reasonSpan
+				dropped++
+			}
+		}
+	}
+	a.notes["spanning_entities"] = spanning
+	a.notes["span_policy"] = spec.Span
+	a.notes["span_dropped_rows"] = dropped
+}
+
+// assignRolling makes rolling-origin folds (an expanding window) over the train side's rows
+// in (time, ss_row) order, as scikit-learn's TimeSeriesSplit does: with m rows, K folds and
+// test size s (default m / (K+1)), fold k's test block starts at position
+// m - (K - k + 1)·s and holds s rows; its training part is every earlier row more than the
+// gap before the block: position < start_k - gap_rows, time < time(start_k) - gap, and
+// (with --label-end) label_end < time(start_k), so labels never reach into the test block.
+// A row's train_from is the first fold whose training part holds it (the conditions only
+// loosen as k grows, so it trains in every later fold as well).
+func assignRolling(d *data, spec *Spec, a *assignment) error {
+	gap, err := spec.gapValue(d.numeric)
+	if err != nil {
+		return err
+	}
+	ti := trainIndex(spec, a.sides)
+	if ti < 0 {
+		return fieldErr("folds", "folds are made within the train side; name a side train or give --train-side")
+	}
+	var rows []int
+	for i := 0; i < d.n; i++ {
+		if int(a.side[i]) == ti {
+			rows = append(rows, i)
+		}
+	}
+	order := timeOrder(d, rows)
+	m, K := len(order), spec.Folds
+	ts := spec.TestSize
+	if ts == 0 {
+		ts = m / (K + 1)
+	}
+	if ts == 0 || K*ts > m-1 {
+		return fieldErr("folds", "%d rolling-origin folds with test size %d need more than %d rows on side %q; it has %d", K, max(ts, 1), K*max(ts, 1), a.sides[ti], m)
+	}
+	a.fold = make([]int32, d.n)
+	a.trainFrom = make([]int32, d.n)
+	start := make([]int, K+1)
+	for k := 1; k <= K; k++ {
+		start[k] = m - (K-k+1)*ts
+	}
+	for p, i := range order {
+		for k := 1; k <= K; k++ {
+			if p >= start[k] && p < start[k]+ts {
+				a.fold[i] = int32(k)
+			}
+		}
+		for k := 1; k <= K; k++ {
+			t0 := d.t[order[start[k]]]
+			if p < start[k]-spec.GapRows && (spec.Gap == "" || d.t[i] < t0-gap) && (d.labelEnd == nil || d.labelEnd[i] < t0) {
+				a.trainFrom[i] = int32(k)
+				break
+			}
+		}
+	}
+	for k := 1; k <= K; k++ {
+		st := foldStat{fold: k, testRows: ts}
+		for p := 0; p < start[k]; p++ {
+			i := order[p]
+			if a.trainFrom[i] != 0 && a.trainFrom[i] <= int32(k) {
+				st.trainRows++
+			} else {
+				st.excluded++
+			}
+		}
+		a.folds = append(a.folds, st)
+	}
+	if K*ts < m {
+		a.notes["rolling_test_size"] = ts
+	}
+	return nil
+}

@@ -1,0 +1,381 @@
+package splits
+
+import (
+	"context"
+	"database/sql"
+	"errors"
+	"fmt"
+	"sort"
+	"strings"
+
+	"splitsmith/ingest"
+)
+
+// Change is one difference verify found.
+type Change struct {
+	Kind   string `json:"kind"` // moved | added | removed | changed | seal | count
+	RowID  int64  `json:"row_id,omitempty"`
+	Source string `json:"source,omitempty"` // input file:line of the row, when it still exists
+	Side   string `json:"side,omitempty"`   // stored side ('' = dropped)
+	Now    string `json:"now,omitempty"`    // recomputed side (moved) or recomputed value (seal)
+	Detail string `json:"detail"`
+}
+
+// Report is the outcome of Verify.
+type Report struct {
+	Split    string   `json:"split"`
+	Table    string   `json:"table"`
+	Strategy string   `json:"strategy"`
+	Rows     int      `json:"rows_sealed"`
+	Intact   bool     `json:"intact"`
+	Counts   map[string]int `json:"counts"`
+	Changes  []Change `json:"changes"`
+	Notes    []string `json:"notes"`
+}
+
+// Verify recomputes a stored split from its spec and the table's current data, and reports
+// every row that moved side (or fold), was added to or removed from the table since the
+// split was sealed, or whose values no longer match its content digest, and every side whose
+// seal digest no longer matches. It writes nothing.
+func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
+	var table, specJSON, strategy string
+	err := conn.QueryRowContext(ctx, `SELECT table_name, spec_json, strategy FROM ss_splits WHERE split_name = ?`, name).Scan(&table, &specJSON, &strategy)
+	if errors.Is(err, sql.ErrNoRows) {
+		return nil, fieldErr("split", "no split %q (list them with: splitsmith splits)", name)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	spec, err := SpecFromJSON(specJSON)
+	if err != nil {
+		return nil, err
+	}
+	if err := spec.Resolve(); err != nil {
+		return nil, fmt.Errorf("verify %s: stored spec: %w", name, err)
+	}
+	rep := &Report{Split: name, Table: table, Strategy: strategy, Counts: map[string]int{}, Changes: []Change{}, Notes: []string{}}
+	t, err := ReadTable(ctx, conn, table)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	// Stored rows.
+	type stored struct {
+		side      string
+		fold, tf  sql.NullInt64
+	}
+	st := map[int64]stored{}
+	var ids []int64
+	rows, err := conn.QueryContext(ctx, `SELECT row_id, side, fold, train_from FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`, name)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	for rows.Next() {
+		var id int64
+		var s stored
+		if err := rows.Scan(&id, &s.side, &s.fold, &s.tf); err != nil {
+			rows.Close()
+			return nil, err
+		}
+		st[id] = s
+		ids = append(ids, id)
+	}
+	rows.Close()
+	rep.Rows = len(ids)
+	// Recompute over the rows the split sealed that still exist.
+	where := `ss_row IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?)`
+	d, err := loadWhere(ctx, conn, t, spec, nil, where, []any{name})
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	var a *assignment
+	if d.n > 0 {
+		if a, err = compute(d, spec); err != nil {
+			return nil, fmt.Errorf("verify %s: recompute: %w", name, err)
+		}
+	}
+	src := map[int64]string{}
+	present := map[int64]bool{}
+	for i := 0; i < d.n; i++ {
+		id := d.rowID[i]
+		present[id] = true
+		s := st[id]
+		now := ""
+		if a.side[i] >= 0 {
+			now = a.sides[a.side[i]]
+		}
+		var nf, ntf int64
+		if a.fold != nil {
+			nf = int64(a.fold[i])
+		}
+		if a.trainFrom != nil {
+			ntf = int64(a.trainFrom[i])
+		}
+		switch {
+		case now != s.side:
+			rep.Changes = append(rep.Changes, Change{Kind: "moved", RowID: id, Side: s.side, Now: now, Detail: fmt.Sprintf("stored on side %s, recomputed on side %s", sideLabel(s.side), sideLabel(now))})
+		case nf != s.fold.Int64 || ntf != s.tf.Int64:
+			rep.Changes = append(rep.Changes, Change{Kind: "moved", RowID: id, Side: s.side, Now: now, Detail: fmt.Sprintf("stored in fold %s, recomputed in fold %s", foldText(s.fold.Int64), foldText(nf))})
+		}
+	}
+	for _, id := range ids {
+		if !present[id] {
+			rep.Changes = append(rep.Changes, Change{Kind: "removed", RowID: id, Side: st[id].side, Detail: "row sealed in the split is no longer in the table"})
+		}
+	}
+	// Added rows.
+	rows, err = conn.QueryContext(ctx, `SELECT ss_row FROM `+quoteIdent(table)+` WHERE ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?) ORDER BY ss_row`, name)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	for rows.Next() {
+		var id int64
+		rows.Scan(&id)
+		rep.Changes = append(rep.Changes, Change{Kind: "added", RowID: id, Detail: "row is in the table but not in the split (added after sealing)"})
+	}
+	rows.Close()
+	// Content digests of current values.
+	changed, err := changedRows(ctx, conn, t)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	for _, c := range changed {
+		if _, ok := st[c.RowID]; ok {
+			c.Side = st[c.RowID].side
+		}
+		rep.Changes = append(rep.Changes, c)
+	}
+	// Seals over the current ss_digest of each stored side's rows.
+	srows, err := conn.QueryContext(ctx, `SELECT side, rows, digest FROM ss_split_sides WHERE split_name = ? ORDER BY position`, name)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	type sideRow struct {
+		side, digest string
+		rows         int
+	}
+	var sides []sideRow
+	for srows.Next() {
+		var s sideRow
+		srows.Scan(&s.side, &s.rows, &s.digest)
+		sides = append(sides, s)
+	}
+	srows.Close()
+	for _, s := range sides {
+		var ds []int64
+		r, err := conn.QueryContext(ctx, `SELECT t.ss_digest FROM ss_split_rows AS r JOIN `+quoteIdent(table)+` AS t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side = ?`, name, s.side)
+		if err != nil {
+			return nil, fmt.Errorf("verify %s: %w", name, err)
+		}
+		for r.Next() {
+			var x int64
+			r.Scan(&x)
+			ds = append(ds, x)
+		}
+		r.Close()
+		var n int
+		conn.QueryRowContext(ctx, `SELECT count(*) FROM ss_split_rows WHERE split_name = ? AND side = ?`, name, s.side).Scan(&n)
+		if n != s.rows {
+			rep.Changes = append(rep.Changes, Change{Kind: "count", Side: s.side, Now: fmt.Sprint(n), Detail: fmt.Sprintf("side %s was sealed with %d rows; ss_split_rows now has %d", s.side, s.rows, n)})
+		}
+		if got := Seal(ds); got != s.digest {
+			rep.Changes = append(rep.Changes, Change{Kind: "seal", Side: s.side, Now: got, Detail: fmt.Sprintf("side %s digest %s… no longer matches the sealed %s…", s.side, got[:12], s.digest[:12])})
+		}
+	}
+	// Locate rows.
+	locate := func(id int64) string {
+		if s, ok := src[id]; ok {
+			return s
+		}
+		var file string
+		var line int64
+		if err := conn.QueryRowContext(ctx, `SELECT ss_source, ss_line FROM `+quoteIdent(table)+` WHERE ss_row = ?`, id).Scan(&file, &line); err != nil {
+			return ""
+		}
+		src[id] = fmt.Sprintf("%s:%d", file, line)
+		return src[id]
+	}
+	order := map[string]int{"changed": 0, "moved": 1, "added": 2, "removed": 3, "seal": 4, "count": 5}
+	sort.SliceStable(rep.Changes, func(i, j int) bool {
+		a, b := rep.Changes[i], rep.Changes[j]
+		if order[a.Kind] != order[b.Kind] {
+			return order[a.Kind] < order[b.Kind]
+		}
+		if a.RowID != b.RowID {
+			return a.RowID < b.RowID
+		}
+		return a.Side < b.Side
+	})
+	for i := range rep.Changes {
+		if rep.Changes[i].RowID != 0 && rep.Changes[i].Kind != "removed" {
+			rep.Changes[i].Source = locate(rep.Changes[i].RowID)
+		}
+		rep.Counts[rep.Changes[i].Kind]++
+	}
+	rep.Intact = len(rep.Changes) == 0
+	if (rep.Counts["removed"] > 0 || rep.Counts["changed"] > 0) && !appendStable(spec) {
+		rep.Notes = append(rep.Notes, fmt.Sprintf("strategy %s is not append-stable (quotas, fraction cut points or balanced folds depend on the whole row set), so rows reported moved may follow from the rows removed or changed", strategyLabel(spec)))
+	}
+	return rep, nil
+}
+
+func sideLabel(s string) string {
+	if s == "" {
+		return "'' (dropped)"
+	}
+	return s
+}
+
+func foldText(f int64) string {
+	if f == 0 {
+		return "NULL"
+	}
+	return fmt.Sprint(f)
+}
+
+func strategyLabel(s *Spec) string {
+	if s.FoldScheme() != "" {
+		return s.Strategy() + " with " + s.FoldScheme() + " folds"
+	}
+	return s.Strategy()
+}
+
+// appendStable reports whether every row's side is a function of that row's own key (or
+// entity) alone, so that appending rows moves no existing row.
+func appendStable(s *Spec) bool {
+	switch s.Strategy() {
+	case "random", "adopted":
+	case "grouped":
+	case "stratified":
+		if s.StratifyMode != "hash" {
+			return false
+		}
+	case "time":
+		if s.Cutoff == "" || len(s.Group) > 0 {
+			return false
+		}
+	default:
+		return false
+	}
+	switch s.FoldScheme() {
+	case "", "adopted":
+		return true
+	case "kfold":
+		return len(s.Group) == 0 && (s.Stratify == "" || s.StratifyMode == "hash")
+	}
+	return false
+}
+
+// changedRows lists rows whose stored ss_digest differs from the digest of their current
+// values (ingest's content digest).
+func changedRows(ctx context.Context, conn *sql.Conn, t *Table) ([]Change, error) {
+	cols := []string{"ss_row", "ss_digest"}
+	for _, c := range t.Columns {
+		cols = append(cols, quoteIdent(c.Name))
+	}
+	rows, err := conn.QueryContext(ctx, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` ORDER BY ss_row`)
+	if err != nil {
+		return nil, err
+	}
+	defer rows.Close()
+	vals := make([]any, len(cols))
+	ptrs := make([]any, len(cols))
+	for i := range vals {
+		ptrs[i] = &vals[i]
+	}
+	dg := ingest.NewDigester()
+	var out []Change
+	for rows.Next() {
+		if err := rows.Scan(ptrs...); err != nil {
+			return nil, err
+		}
+		dg.Reset()
+		for _, v := range vals[2:] {
+			if err := dg.Value(v); err != nil {
+				return nil, err
+			}
+		}
+		stored, _ := vals[1].(int64)
+		if got := dg.Sum(); got != stored {
+			id, _ := vals[0].(int64)
+			out = append(out, Change{Kind: "changed", RowID: id, Now: fmt.Sprint(got), Detail: fmt.Sprintf("values no longer match the row's content digest (ss_digest %d, values digest to %d)", stored, got)})
+		}
+	}
+	return out, rows.Err()
+}
+
+// auditQueries are the SQL an auditor replays to check the split by hand (subject
+// "split:NAME"). Each "check" returns no rows while the split holds.
+func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
+	n := quoteString(spec.Name)
+	T := quoteIdent(t.Name)
+	var qs []AuditQuery
+	qs = append(qs, AuditQuery{Name: "rows_added_or_removed", Kind: "check",
+		Description: "rows of the table that are not in the split (added since sealing) and rows of the split no longer in the table",
+		SQL: fmt.Sprintf(`SELECT 'added' AS change, t.ss_row AS row_id FROM %[1]s AS t WHERE t.ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = %[2]s) UNION ALL SELECT 'removed', r.row_id FROM ss_split_rows AS r WHERE r.split_name = %[2]s AND r.row_id NOT IN (SELECT ss_row FROM %[1]s) ORDER BY 2`, T, n)})
+	qs = append(qs, AuditQuery{Name: "side_counts", Kind: "check",
+		Description: "sides whose stored row count differs from the rows assigned to them",
+		SQL: fmt.Sprintf(`SELECT s.side, s.rows, (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[1]s AND s.rows <> (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, n)})
+	qs = append(qs, AuditQuery{Name: "side_seals", Kind: "check", NeedsTool: true,
+		Description: "sides whose seal (split_seal over the rows' ss_digest) differs from the stored digest; without splitsmith: SHA-256 of the side's ss_digest values sorted ascending, each as 8 bytes big-endian",
+		SQL: fmt.Sprintf(`SELECT s.side, s.digest, (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[2]s AND s.digest IS NOT (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, T, n)})
+	var cols []string
+	for _, c := range t.Columns {
+		cols = append(cols, quoteIdent(c.Name))
+	}
+	qs = append(qs, AuditQuery{Name: "row_digests", Kind: "check", NeedsTool: true,
+		Description: "rows whose values no longer match their content digest (changed since loading)",
+		SQL:         fmt.Sprintf(`SELECT ss_row, ss_source, ss_line FROM %s WHERE ss_digest <> ingest_digest(%s) ORDER BY ss_row`, T, strings.Join(cols, ", "))})
+	// The assignment itself, where plain SQL (plus split_side) recomputes it.
+	sides := quoteString(spec.Sides.String())
+	seed := fmt.Sprint(int64(spec.Seed))
+	keyExpr := "t.ss_digest"
+	if len(spec.Key) > 0 {
+		var k []string
+		for _, c := range spec.Key {
+			k = append(k, "t."+quoteIdent(c))
+		}
+		keyExpr = "split_key(" + strings.Join(k, ", ") + ")"
+	}
+	switch {
+	case spec.Strategy() == "random" || (spec.Strategy() == "stratified" && spec.StratifyMode == "hash"):
+		qs = append(qs, AuditQuery{Name: "assignment", Kind: "check", NeedsTool: true,
+			Description: "rows whose stored side differs from split_side(key, seed, sides) (the hash specification)",
+			SQL: fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, keyExpr, seed, sides)})
+	case spec.Strategy() == "grouped" && len(spec.Group) == 1:
+		g := "t." + quoteIdent(spec.Group[0])
+		key := fmt.Sprintf("CASE WHEN %[1]s IS NULL THEN t.ss_digest ELSE split_key(%[1]s) END", g)
+		qs = append(qs, AuditQuery{Name: "assignment", Kind: "check", NeedsTool: true,
+			Description: "rows whose stored side differs from split_side(entity key, seed, sides); the entity key is split_key(group value), or ss_digest for a NULL group value",
+			SQL: fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, key, seed, sides)})
+	case spec.Strategy() == "stratified":
+		s := "t." + quoteIdent(spec.Stratify)
+		qs = append(qs, AuditQuery{Name: "stratum_hash_order", Kind: "check", NeedsTool: true,
+			Description: "strata in which a side's rows are not a contiguous run in hash order (each stratum is cut in split_hash_u order)",
+			SQL: fmt.Sprintf(`WITH x AS (SELECT %[3]s AS stratum, r.side, split_hash_u(%[4]s, %[5]s) AS u FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s), g AS (SELECT x.stratum, x.side, p.position, min(x.u) AS lo, max(x.u) AS hi FROM x JOIN ss_split_sides AS p ON p.split_name = %[2]s AND p.side = x.side GROUP BY x.stratum, x.side) SELECT a.stratum, a.side, b.side FROM g AS a JOIN g AS b ON a.stratum IS b.stratum AND a.position < b.position AND a.hi > b.lo ORDER BY 1, 2, 3`, T, n, s, keyExpr, seed)})
+	}
+	for i, g := range spec.Group {
+		qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_side_%d", i+1), Kind: "check",
+			Description: fmt.Sprintf("values of group column %s found on more than one side (every entity must be on one side)", g),
+			SQL: fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.side) AS sides FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> '' AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.side) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
+		if spec.FoldScheme() == "kfold" {
+			qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_fold_%d", i+1), Kind: "check",
+				Description: fmt.Sprintf("values of group column %s found in more than one fold", g),
+				SQL: fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.fold) AS folds FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.fold IS NOT NULL AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.fold) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
+		}
+	}
+	if spec.Time != "" {
+		tc := "t." + quoteIdent(spec.Time)
+		qs = append(qs, AuditQuery{Name: "time_order", Kind: "check",
+			Description: "pairs of sides where an earlier side has a row at or after the first time of a later side (time values compare as stored: ISO text or numbers)",
+			SQL: fmt.Sprintf(`WITH x AS (SELECT r.side, p.position, min(%[3]s) AS lo, max(%[3]s) AS hi FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id JOIN ss_split_sides AS p ON p.split_name = r.split_name AND p.side = r.side WHERE r.split_name = %[2]s GROUP BY r.side) SELECT a.side, a.hi, b.side, b.lo FROM x AS a JOIN x AS b ON a.position < b.position AND a.hi >= b.lo ORDER BY 1, 3`, T, n, tc)})
+		if spec.FoldScheme() == "rolling" {
+			qs = append(qs, AuditQuery{Name: "rolling_folds", Kind: "check",
+				Description: "rows trained on in the fold that tests them, or trained on at or after a test row of that fold in time",
+				SQL: fmt.Sprintf(`SELECT r.row_id, r.fold, r.train_from FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.train_from IS NOT NULL AND (r.train_from <= r.fold OR %[3]s >= (SELECT min(%[4]s) FROM ss_split_rows AS q JOIN %[1]s AS u ON u.ss_row = q.row_id WHERE q.split_name = r.split_name AND q.fold = r.train_from)) ORDER BY r.row_id`, T, n, tc, "u."+quoteIdent(spec.Time))})
+		}
+	}
+	qs = append(qs, AuditQuery{Name: "dropped_rows", Kind: "report",
+		Description: "rows kept off every side, by reason (gap, purge, span)",
+		SQL:         fmt.Sprintf(`SELECT reason, count(*) AS rows FROM ss_split_rows WHERE split_name = %s AND side = '' GROUP BY reason ORDER BY reason`, n)})
+	return qs
+}

@@ -60,8 +60,11 @@ type span struct {
 
 var errNeedMore = errors.New("need more")
 
+// csvBufSize is the reader's initial buffer; tests shrink it to exercise refills.
+var csvBufSize = 1 << 20
+
 func newCSVReader(r io.Reader, comma byte, quoted bool) *csvReader {
-	return &csvReader{r: r, buf: make([]byte, 1<<20), comma: comma, quoted: quoted, line: 1}
+	return &csvReader{r: r, buf: make([]byte, csvBufSize), comma: comma, quoted: quoted, line: 1}
 }
 
 func (c *csvReader) rec() *record { return &c.r0 }

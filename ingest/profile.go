@@ -670,7 +670,7 @@ func profOutlierFinding(ctx context.Context, conn *sql.Conn, t, q string, cp Col
 	}
 	return ProfileFinding{Check: "outliers", Severity: sev, Count: nOut, Examples: ex,
 		Message: fmt.Sprintf("%d values outside Tukey's fences %s .. %s (1.5 IQR)%s; most extreme: %s",
-			nOut, cellText(profRender(cp.Kind, inner.Low)), cellText(profRender(cp.Kind, inner.High)), far, strings.Join(parts, ", "))}, nil
+			nOut, statText(profRender(cp.Kind, inner.Low)), statText(profRender(cp.Kind, inner.High)), far, strings.Join(parts, ", "))}, nil
 }
 
 // profCaseVariants finds text values that are equal after ASCII lower-casing and trimming
@@ -712,7 +712,7 @@ func profCaseVariants(ctx context.Context, conn *sql.Conn, t, q string) (Profile
 		parts = append(parts, strings.Join(byKey[k], " / "))
 	}
 	return ProfileFinding{Check: "case_variants", Severity: SeverityWarn, Count: rowsIn, Examples: ex,
-		Message: fmt.Sprintf("%d groups of values differ only in case or surrounding whitespace (%d rows): %s", groups, rowsIn, strings.Join(parts, "; "))}, true, nil
+		Message: fmt.Sprintf("values differ only in case or surrounding whitespace (%d sets, %d rows): %s", groups, rowsIn, strings.Join(parts, "; "))}, true, nil
 }
 
 // profLinesWhere returns up to maxExampleLines lines of rows matching cond.
@@ -750,6 +750,14 @@ func linesText(lines []int64, n int64) string {
 		b.WriteString(", …")
 	}
 	return b.String()
+}
+
+// statText renders a computed statistic with 6 significant digits (stored values keep all).
+func statText(v any) string {
+	if f, ok := v.(float64); ok {
+		return strconv.FormatFloat(f, 'g', 6, 64)
+	}
+	return cellText(v)
 }
 
 // cellText renders a stored value for a message.
@@ -824,7 +832,7 @@ func profileTable(ctx context.Context, conn *sql.Conn, t string, res *ProfileRes
 			parts = append(parts, "lines "+joinInts(g.lines))
 		}
 		fs = append(fs, ProfileFinding{Check: "duplicate_rows", Severity: SeverityWarn, Count: res.DuplicateRows, Examples: ex,
-			Message: fmt.Sprintf("%d rows repeat an earlier row exactly (%d groups, same ss_digest); first groups: %s", res.DuplicateRows, len(groups), strings.Join(parts, "; "))})
+			Message: fmt.Sprintf("%d rows repeat an earlier row exactly (same ss_digest; %d sets of copies); first: %s", res.DuplicateRows, len(groups), strings.Join(parts, "; "))})
 	}
 
 	// Duplicate and missing keys.
@@ -887,7 +895,7 @@ func profileTable(ctx context.Context, conn *sql.Conn, t string, res *ProfileRes
 				return nil, err
 			}
 			fs = append(fs, ProfileFinding{Check: "duplicate_key", Severity: SeverityError, Count: dupRows, Examples: ex,
-				Message: fmt.Sprintf("key (%s) is not unique: %d rows share %d keys; first: %s", keyName, dupRows, dupGroups, strings.Join(parts, "; "))})
+				Message: fmt.Sprintf("key (%s) is not unique: %d values occur more than once, on %d rows; first: %s", keyName, dupGroups, dupRows, strings.Join(parts, "; "))})
 		}
 		var nullKeys int64
 		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+t+` WHERE `+strings.Join(nulls, " OR ")).Scan(&nullKeys); err != nil {

@@ -49,7 +49,7 @@ Examples:
    splitsmith profile --db pipes.db --table pipes --format json`,
 		Flags: []cli.Flag{
 			dbFlag(),
-			&cli.StringFlag{Name: "table", Usage: "ingested table `NAME`", Required: true},
+			&cli.StringFlag{Name: "table", Usage: "ingested table `NAME` (required)"},
 			&cli.StringFlag{Name: "key", Usage: "`COL,...` that should identify each row (checked for duplicates and NULLs)"},
 			failOnFlag(),
 			formatFlag("table", "table", "json", "markdown"),
@@ -59,6 +59,9 @@ Examples:
 				return usagef(profileHint, "unexpected argument %q", cc.Args().First())
 			}
 			o := profileOptions{db: cc.String("db"), table: cc.String("table")}
+			if o.table == "" {
+				return usagef(profileHint, "--table is required")
+			}
 			var err error
 			if o.failOn, err = checkFailOn(cc); err != nil {
 				return err
@@ -188,7 +191,11 @@ func printProfile(w io.Writer, r *ingest.ProfileResult, format string) error {
 		}
 		var parts []string
 		for _, v := range c.Top {
-			parts = append(parts, fmt.Sprintf("%s (%d)", cell(v.Value), v.Count))
+			if str, ok := v.Value.(string); ok {
+				parts = append(parts, fmt.Sprintf("%q (%d)", str, v.Count))
+			} else {
+				parts = append(parts, fmt.Sprintf("%s (%d)", cell(v.Value), v.Count))
+			}
 		}
 		tt.add(c.Name, strings.Join(parts, ", "))
 	}

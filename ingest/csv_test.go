@@ -223,3 +223,10 @@ func FuzzJSONL(f *testing.F) {
 		}
 	})
 }
+
+func csvNewReader(r io.Reader) *csv.Reader {
+	cr := csv.NewReader(r)
+	cr.ReuseRecord = true
+	cr.FieldsPerRecord = -1
+	return cr
+}

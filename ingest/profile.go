@@ -678,7 +678,9 @@ func profOutlierFinding(ctx context.Context, conn *sql.Conn, t, q string, cp Col
 func profCaseVariants(ctx context.Context, conn *sql.Conn, t, q string) (ProfileFinding, bool, error) {
 	norm := `lower(trim(` + q + `, ' ' || char(9, 10, 13)))`
 	var groups, rowsIn int64
-	err := conn.QueryRowContext(ctx, `SELECT count(*), coalesce(sum(n), 0) FROM (SELECT count(*) AS n FROM `+t+` WHERE typeof(`+q+`) = 'text' GROUP BY `+norm+` HAVING count(DISTINCT `+q+`) > 1)`).Scan(&groups, &rowsIn)
+	// rowsIn counts the rows that do not carry their set's most common spelling.
+	err := conn.QueryRowContext(ctx, `SELECT count(*), coalesce(sum(m), 0) FROM (SELECT sum(n) - max(n) AS m FROM
+		(SELECT `+norm+` AS k, count(*) AS n FROM `+t+` WHERE typeof(`+q+`) = 'text' GROUP BY k, `+q+`) GROUP BY k HAVING count(*) > 1)`).Scan(&groups, &rowsIn)
 	if err != nil || groups == 0 {
 		return ProfileFinding{}, false, err
 	}
@@ -712,7 +714,7 @@ func profCaseVariants(ctx context.Context, conn *sql.Conn, t, q string) (Profile
 		parts = append(parts, strings.Join(byKey[k], " / "))
 	}
 	return ProfileFinding{Check: "case_variants", Severity: SeverityWarn, Count: rowsIn, Examples: ex,
-		Message: fmt.Sprintf("values differ only in case or surrounding whitespace (%d sets, %d rows): %s", groups, rowsIn, strings.Join(parts, "; "))}, true, nil
+		Message: fmt.Sprintf("%d rows spell a value differently from its most common form, by case or surrounding whitespace only (%d sets): %s", rowsIn, groups, strings.Join(parts, "; "))}, true, nil
 }
 
 // profLinesWhere returns up to maxExampleLines lines of rows matching cond.

@@ -17,9 +17,10 @@ const (
 	reasonGap
 	reasonPurge
 	reasonSpan
+	reasonTime
 )
 
-var reasonNames = [...]string{"", "gap", "purge", "span"}
+var reasonNames = [...]string{"", "gap", "purge", "span", "time"}
 
 // DataError is bad data in the table (an unparseable time value, NULLs where refused),
 // located by rows.
@@ -42,6 +43,8 @@ type data struct {
 	t        []float64 // time (Unix seconds, or the numeric value)
 	tRaw     []string  // time as stored, for reports
 	numeric  bool      // time column is numeric
+	tBad     []bool    // time or label end missing or unparseable (with time_invalid drop)
+	badTimes int
 	labelEnd []float64
 	adopt    []string
 	foldCol  []int64
@@ -195,18 +198,24 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		}
 		if timeIdx >= 0 {
 			tv, raw, ok := timeValue(vals[timeIdx], d.numeric)
+			bad := !ok
 			if !ok {
 				badTime = append(badTime, id)
 			}
+			if leIdx >= 0 {
+				lv, _, ok := timeValue(vals[leIdx], d.numeric)
+				if !ok {
+					badLE = append(badLE, id)
+					bad = true
+				}
+				d.labelEnd = append(d.labelEnd, lv)
+			}
 			d.t = append(d.t, tv)
 			d.tRaw = append(d.tRaw, raw)
-		}
-		if leIdx >= 0 {
-			tv, _, ok := timeValue(vals[leIdx], d.numeric)
-			if !ok {
-				badLE = append(badLE, id)
+			d.tBad = append(d.tBad, bad)
+			if bad {
+				d.badTimes++
 			}
-			d.labelEnd = append(d.labelEnd, tv)
 		}
 		if adoptIdx >= 0 {
 			v := normalize(vals[adoptIdx])
@@ -239,8 +248,11 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		return nil, fmt.Errorf("read %s: %w", t.Name, err)
 	}
 	rows.Close()
+	if spec.TimeInvalid == "drop" {
+		badTime, badLE = nil, nil
+	}
 	if len(badTime) > 0 {
-		return nil, &DataError{Msg: fmt.Sprintf("column %q (--time): %d value(s) are missing or not a %s: %s", spec.Time, len(badTime), timeKind(d.numeric), describeRows(ctx, conn, t, spec.Time, badTime))}
+		return nil, &DataError{Msg: fmt.Sprintf("column %q (--time): %d value(s) are missing or not a %s (--time-invalid drop drops such rows): %s", spec.Time, len(badTime), timeKind(d.numeric), describeRows(ctx, conn, t, spec.Time, badTime))}
 	}
 	if len(badLE) > 0 {
 		return nil, &DataError{Msg: fmt.Sprintf("column %q (--label-end): %d value(s) are missing or not a %s: %s", spec.LabelEnd, len(badLE), timeKind(d.numeric), describeRows(ctx, conn, t, spec.LabelEnd, badLE))}

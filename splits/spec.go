@@ -78,6 +78,9 @@ type Spec struct {
 	GapRows  int    `json:"gap_rows,omitempty" yaml:"gap_rows"`
 	LabelEnd string `json:"label_end,omitempty" yaml:"label_end"`
 	Span     string `json:"span,omitempty" yaml:"span"`
+	// TimeInvalid says what to do with rows whose time (or label end) is NULL or does not
+	// parse: "refuse" (default: the split fails, naming the rows) or "drop" (reason "time").
+	TimeInvalid string `json:"time_invalid,omitempty" yaml:"time_invalid"`
 	// Folds K > 1: k folds within the train side (random: hash; stratified: round-robin in
 	// hash order; grouped: balanced by rows; time: rolling origin with TestSize rows each).
 	Folds    int `json:"folds,omitempty" yaml:"folds"`
@@ -121,8 +124,8 @@ func flagFor(field string) string {
 	f := map[string]string{"name": "--name", "table": "--table", "seed": "--seed", "sides": "--sides", "key": "--key",
 		"stratify": "--stratify", "stratify_mode": "--stratify-mode", "group": "--group", "group_nulls": "--group-nulls",
 		"time": "--time", "cutoff": "--cutoff", "gap": "--gap", "gap_rows": "--gap-rows", "label_end": "--label-end",
-		"span": "--span", "folds": "--folds", "test_size": "--test-size", "from_column": "--from-column", "map": "--map",
-		"fold_column": "--fold-column", "train_side": "--train-side", "holdout_side": "--holdout-side", "version": "version", "split": "--split"}[base]
+		"span": "--span", "time_invalid": "--time-invalid", "folds": "--folds", "test_size": "--test-size", "from_column": "--from-column", "map": "--map",
+		"fold_column": "--fold-column", "train_side": "--train-side", "holdout_side": "--holdout-side", "version": "version", "split": "--split", "side": "--side", "fold": "--fold", "part": "--part", "format": "--format"}[base]
 	if f == "" {
 		return field
 	}
@@ -352,7 +355,17 @@ func (s *Spec) Resolve() error {
 		if s.TestSize != 0 {
 			return fieldErr("test_size", "needs --time and --folds (rolling origin)")
 		}
+		if s.TimeInvalid != "" {
+			return fieldErr("time_invalid", "needs --time")
+		}
 	} else {
+		switch s.TimeInvalid {
+		case "":
+			s.TimeInvalid = "refuse"
+		case "refuse", "drop":
+		default:
+			return fieldErr("time_invalid", "%q is not one of refuse, drop", s.TimeInvalid)
+		}
 		if s.Stratify != "" {
 			return fieldErr("stratify", "a time-ordered split cannot also be stratified")
 		}

@@ -52,25 +52,27 @@ func ReadTable(ctx context.Context, conn *sql.Conn, name string) (*Table, error)
 	if typ != "table" {
 		return nil, fieldErr("table", "%q is a view; split an ingested table", name)
 	}
-	rows, err := conn.QueryContext(ctx, `SELECT name, type FROM pragma_table_info(?) ORDER BY cid`, name)
+	// Column names and declared types from the statement itself (read-only connections deny
+	// the table_info pragma with an argument).
+	rows, err := conn.QueryContext(ctx, `SELECT * FROM `+quoteIdent(name)+` LIMIT 0`)
+	if err != nil {
+		return nil, fmt.Errorf("read table %s: %w", name, err)
+	}
+	cts, err := rows.ColumnTypes()
+	rows.Close()
 	if err != nil {
 		return nil, fmt.Errorf("read table %s: %w", name, err)
 	}
 	t := &Table{Name: name}
 	sys := map[string]bool{}
-	for rows.Next() {
-		var c, decl string
-		if err := rows.Scan(&c, &decl); err != nil {
-			rows.Close()
-			return nil, err
-		}
+	for _, ct := range cts {
+		c := ct.Name()
 		if isSystem(c) {
 			sys[c] = true
 			continue
 		}
-		t.Columns = append(t.Columns, Column{Name: c, Logical: strings.ToUpper(decl)})
+		t.Columns = append(t.Columns, Column{Name: c, Logical: strings.ToUpper(ct.DatabaseTypeName())})
 	}
-	rows.Close()
 	for _, s := range systemColumns {
 		if !sys[s] {
 			return nil, fieldErr("table", "table %q has no %s column: split tables loaded by splitsmith ingest", name, s)

@@ -1,6 +1,7 @@
 package splits
 
 import (
+	"fmt"
 	"math"
 	"sort"
 )
@@ -8,9 +9,11 @@ import (
 // timeOrder returns row indices sorted by (time, ss_row).
 func timeOrder(d *data, rows []int) []int {
 	if rows == nil {
-		rows = make([]int, d.n)
-		for i := range rows {
-			rows[i] = i
+		rows = make([]int, 0, d.n)
+		for i := 0; i < d.n; i++ {
+			if !d.tBad[i] {
+				rows = append(rows, i)
+			}
 		}
 	}
 	sort.Slice(rows, func(i, j int) bool {
@@ -53,6 +56,18 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 		return err
 	}
 	order := timeOrder(d, nil)
+	n := len(order)
+	if n == 0 {
+		return &DataError{Msg: fmt.Sprintf("column %q (--time): no row has a usable time", spec.Time)}
+	}
+	for i := 0; i < d.n; i++ {
+		if d.tBad[i] {
+			a.side[i], a.reason[i] = -1, reasonTime
+		}
+	}
+	if d.badTimes > 0 {
+		a.notes["time_invalid_rows"] = d.badTimes
+	}
 	ns := len(spec.Sides)
 	bounds := make([]float64, ns-1) // time at which side i+1 starts
 	bpos := make([]int, ns-1)       // position in order where side i+1 starts
@@ -69,19 +84,19 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 			return fieldErr("cutoff", "%q is not a %s like the values of %q", spec.Cutoff, timeKind(d.numeric), spec.Time)
 		}
 		bounds[0] = c
-		bpos[0] = sort.Search(d.n, func(k int) bool { return d.t[order[k]] >= c })
+		bpos[0] = sort.Search(n, func(k int) bool { return d.t[order[k]] >= c })
 	} else {
 		cum := 0.0
 		for i := 0; i < ns-1; i++ {
 			cum += fr[i]
-			p := int(math.Round(cum * float64(d.n)))
-			if p >= d.n {
-				bounds[i], bpos[i] = math.Inf(1), d.n
+			p := int(math.Round(cum * float64(n)))
+			if p >= n {
+				bounds[i], bpos[i] = math.Inf(1), n
 				continue
 			}
 			b := d.t[order[p]]
 			bounds[i] = b
-			bpos[i] = sort.Search(d.n, func(k int) bool { return d.t[order[k]] >= b })
+			bpos[i] = sort.Search(n, func(k int) bool { return d.t[order[k]] >= b })
 		}
 	}
 	side := 0
@@ -131,6 +146,9 @@ func applySpan(d *data, spec *Spec, fr []float64, a *assignment, timeSide []int1
 		lo[e], hi[e] = math.MaxInt16, -1
 	}
 	for i := 0; i < d.n; i++ {
+		if timeSide[i] < 0 {
+			continue
+		}
 		e := d.entity[i]
 		lo[e] = min(lo[e], timeSide[i])
 		hi[e] = max(hi[e], timeSide[i])
@@ -144,6 +162,9 @@ func applySpan(d *data, spec *Spec, fr []float64, a *assignment, timeSide []int1
 	cum := Cumulative(fr)
 	dropped := 0
 	for i := 0; i < d.n; i++ {
+		if timeSide[i] < 0 {
+			continue
+		}
 		e := d.entity[i]
 		switch spec.Span {
 		case "drop":

@@ -1,0 +1,680 @@
+package leakage
+
+import (
+	"context"
+	"database/sql"
+	"encoding/json"
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Options are one audit's settings, as the command resolved them.
+type Options struct {
+	Split   string
+	Checks  []string           // check names; empty = every check whose inputs are available
+	Label   string             // label column, or ""
+	Text    []string           // text columns for near_duplicate_text
+	Time    string             // time column; "" = the split's time column
+	Entity  []string           // entity columns; nil = the split's group columns
+	Ignore  []string           // columns left out of the feature set
+	Params  map[string]float64 // "check.param" -> value (ParseParams)
+	Workers int                // goroutines for the parallel checks; 0 = GOMAXPROCS
+	// Progress, when set, returns a callback for a long step and a function that ends it.
+	Progress func(label string) (report func(done, total int64), end func())
+}
+
+// QueryAdder stores SQL that recomputes a result (store.Tx implements it).
+type QueryAdder interface {
+	AddAuditQuery(ctx context.Context, subject, name, kind, description, query string, needsTool bool) error
+}
+
+// Query is stored SQL that recomputes findings. A "check" query returns no rows when the
+// stored findings and the recomputation agree; a "report" query returns rows to read.
+type Query struct {
+	Name, Kind, Description, SQL string
+	NeedsTool                    bool
+}
+
+// SideInfo is one side of the audited split.
+type SideInfo struct {
+	Name, Role string
+	Rows       int
+}
+
+// Report is an audit's result.
+type Report struct {
+	AuditID  int64
+	Split    string
+	Table    string
+	Rows     int
+	Sides    []SideInfo
+	Ran      []string
+	Skipped  []Skip
+	Findings []Finding
+	Queries  []Query
+	Resolved map[string]any // what options_json stores
+}
+
+// Skip is a check that did not run, and why.
+type Skip struct{ Check, Reason string }
+
+// Count returns the number of findings of a severity.
+func (r *Report) Count(s Severity) int {
+	n := 0
+	for _, f := range r.Findings {
+		if f.Severity == s {
+			n++
+		}
+	}
+	return n
+}
+
+// Worst is the highest severity among the findings ("" when none).
+func (r *Report) Worst() Severity {
+	var w Severity
+	for _, f := range r.Findings {
+		if f.Severity.Rank() > w.Rank() {
+			w = f.Severity
+		}
+	}
+	return w
+}
+
+type colInfo struct {
+	Name, Logical, SQLType string
+}
+
+type column struct {
+	colInfo
+	num  []float64 // numeric storage (INTEGER, REAL, BOOLEAN)
+	ints []int64   // INTEGER storage, exact
+	str  []string  // TEXT storage
+	null []bool
+}
+
+func (c *column) numeric() bool { return c.SQLType == "INTEGER" || c.SQLType == "REAL" }
+func (c *column) text() bool    { return c.SQLType == "TEXT" }
+
+type audit struct {
+	ctx       context.Context
+	conn      *sql.Conn
+	opts      Options
+	check     *Check
+	table     string
+	split     string
+	groupBy   []string
+	timeCol   string
+	gap       string
+	splitKeys []string
+	cols      []colInfo
+	sides     []SideInfo
+	rowID     []int64
+	side      []int // index into sides
+	data      map[string]*column
+	feature   []string
+	entity    []string
+	label     string
+	text      []string
+	found     []Finding
+	queries   []Query
+	auditID   int64
+	skipped   []Skip
+	workers   int
+}
+
+func (a *audit) p(name string) float64 {
+	if v, ok := a.opts.Params[a.check.Name+"."+name]; ok {
+		return v
+	}
+	return a.check.param(name).Default
+}
+
+func (a *audit) progress(label string) (func(done, total int64), func()) {
+	if a.opts.Progress == nil {
+		return nil, func() {}
+	}
+	return a.opts.Progress(label)
+}
+
+// Run audits a split inside the caller's transaction: it loads the split's rows, runs the
+// selected checks, and writes ss_audits, ss_findings, ss_finding_rows and the audit queries
+// (subject "audit:<split>"). Bad options give an *InputError before anything is written.
+func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts Options) (*Report, error) {
+	a := &audit{ctx: ctx, conn: conn, opts: opts, split: opts.Split, workers: opts.Workers}
+	checks, err := ParseChecks(opts.Checks)
+	if err != nil {
+		return nil, err
+	}
+	for k := range opts.Params {
+		if _, err := ParseParams([]string{k + "=0"}); err != nil {
+			return nil, err
+		}
+	}
+	if err := a.loadSplit(); err != nil {
+		return nil, err
+	}
+	if err := a.resolveColumns(); err != nil {
+		return nil, err
+	}
+	explicit := len(opts.Checks) > 0
+	var run []*Check
+	for _, c := range checks {
+		if reason := a.missing(c); reason != "" {
+			if explicit {
+				return nil, inputf("check %s: %s", c.Name, reason)
+			}
+			a.skipped = append(a.skipped, Skip{c.Name, reason})
+			continue
+		}
+		run = append(run, c)
+	}
+	if err := a.loadRows(); err != nil {
+		return nil, err
+	}
+	if err := a.validateData(run); err != nil {
+		return nil, err
+	}
+	// The audit row first: stored queries name its id.
+	res, err := conn.ExecContext(ctx, `INSERT INTO ss_audits(run_id, split_name, table_name, options_json, rows, errors, warnings, infos) VALUES(?,?,?,'{}',?,0,0,0)`,
+		runID, a.split, a.table, len(a.rowID))
+	if err != nil {
+		return nil, fmt.Errorf("audit %s: %w", a.split, err)
+	}
+	if a.auditID, err = res.LastInsertId(); err != nil {
+		return nil, err
+	}
+	rep := &Report{AuditID: a.auditID, Split: a.split, Table: a.table, Rows: len(a.rowID), Sides: a.sides, Skipped: a.skipped}
+	for _, c := range run {
+		a.check = c
+		start := len(a.found)
+		if err := c.run(a); err != nil {
+			return nil, fmt.Errorf("audit %s: check %s: %w", a.split, c.Name, err)
+		}
+		for i := start; i < len(a.found); i++ {
+			a.found[i].Check = c.Name
+		}
+		rep.Ran = append(rep.Ran, c.Name)
+	}
+	rep.Findings = a.found
+	rep.Queries = a.queries
+	rep.Resolved = a.resolved(rep)
+	if err := a.write(qa, rep); err != nil {
+		return nil, fmt.Errorf("audit %s: %w", a.split, err)
+	}
+	return rep, nil
+}
+
+func (a *audit) resolved(rep *Report) map[string]any {
+	params := map[string]map[string]float64{}
+	for _, name := range rep.Ran {
+		c := Lookup(name)
+		a.check = c
+		if len(c.Params) == 0 {
+			continue
+		}
+		m := map[string]float64{}
+		for _, p := range c.Params {
+			m[p.Name] = a.p(p.Name)
+		}
+		params[name] = m
+	}
+	skipped := map[string]string{}
+	for _, s := range rep.Skipped {
+		skipped[s.Check] = s.Reason
+	}
+	return map[string]any{
+		"checks": rep.Ran, "skipped": skipped, "label": a.label, "text": orEmpty(a.text), "time": a.timeCol,
+		"entity": orEmpty(a.entity), "features": orEmpty(a.feature), "params": params,
+	}
+}
+
+func orEmpty(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
+
+func (a *audit) missing(c *Check) string {
+	for _, r := range c.Requires {
+		switch {
+		case r == "label" && a.label == "":
+			return "needs --label"
+		case r == "time" && a.timeCol == "":
+			return "needs --time (the split has no time column)"
+		case r == "text" && len(a.text) == 0:
+			return "needs --text"
+		case r == "entity" && len(a.entity) == 0:
+			return "needs --entity (the split has no group columns)"
+		}
+	}
+	if c == NearDuplicateNumeric {
+		for _, f := range a.feature {
+			if a.colType(f).SQLType != "TEXT" {
+				return ""
+			}
+		}
+		return "no numeric feature column"
+	}
+	return ""
+}
+
+func (a *audit) colType(name string) colInfo {
+	for _, c := range a.cols {
+		if c.Name == name {
+			return c
+		}
+	}
+	return colInfo{}
+}
+
+func (a *audit) loadSplit() error {
+	var groups string
+	var timeCol sql.NullString
+	var spec string
+	err := a.conn.QueryRowContext(a.ctx, `SELECT table_name, group_columns, time_column, spec_json FROM ss_splits WHERE split_name = ?`, a.split).
+		Scan(&a.table, &groups, &timeCol, &spec)
+	if err == sql.ErrNoRows {
+		var names []string
+		rows, err := a.conn.QueryContext(a.ctx, `SELECT split_name FROM ss_splits ORDER BY split_name`)
+		if err == nil {
+			for rows.Next() {
+				var n string
+				rows.Scan(&n)
+				names = append(names, n)
+			}
+			rows.Close()
+		}
+		if len(names) == 0 {
+			return inputf("--split: no split %q: the database has no splits (make one with splitsmith split)", a.split)
+		}
+		return inputf("--split: no split %q (splits: %s)", a.split, strings.Join(names, ", "))
+	}
+	if err != nil {
+		return fmt.Errorf("read split %s: %w", a.split, err)
+	}
+	if err := json.Unmarshal([]byte(groups), &a.groupBy); err != nil {
+		return fmt.Errorf("split %s: group_columns: %w", a.split, err)
+	}
+	a.timeCol = timeCol.String
+	var sp struct {
+		Gap string   `json:"gap"`
+		Key []string `json:"key"`
+	}
+	if json.Unmarshal([]byte(spec), &sp) == nil {
+		a.gap, a.splitKeys = sp.Gap, sp.Key
+	}
+	rows, err := a.conn.QueryContext(a.ctx, `SELECT side, role, rows FROM ss_split_sides WHERE split_name = ? ORDER BY position`, a.split)
+	if err != nil {
+		return fmt.Errorf("read split %s sides: %w", a.split, err)
+	}
+	defer rows.Close()
+	for rows.Next() {
+		var s SideInfo
+		if err := rows.Scan(&s.Name, &s.Role, &s.Rows); err != nil {
+			return err
+		}
+		a.sides = append(a.sides, s)
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	crows, err := a.conn.QueryContext(a.ctx, `SELECT name, logical_type, sql_type FROM ss_columns WHERE table_name = ? ORDER BY position`, a.table)
+	if err != nil {
+		return fmt.Errorf("read columns of %s: %w", a.table, err)
+	}
+	defer crows.Close()
+	for crows.Next() {
+		var c colInfo
+		if err := crows.Scan(&c.Name, &c.Logical, &c.SQLType); err != nil {
+			return err
+		}
+		a.cols = append(a.cols, c)
+	}
+	return crows.Err()
+}
+
+func (a *audit) resolveColumns() error {
+	has := map[string]bool{}
+	var names []string
+	for _, c := range a.cols {
+		has[c.Name] = true
+		names = append(names, c.Name)
+	}
+	check := func(flag, name string) error {
+		if !has[name] {
+			return inputf("--%s: table %s has no column %q (columns: %s)", flag, a.table, name, strings.Join(names, ", "))
+		}
+		return nil
+	}
+	o := a.opts
+	if o.Label != "" {
+		if err := check("label", o.Label); err != nil {
+			return err
+		}
+		a.label = o.Label
+	}
+	for _, t := range o.Text {
+		if err := check("text", t); err != nil {
+			return err
+		}
+		if a.colType(t).SQLType != "TEXT" {
+			return inputf("--text: column %q holds %s values, not text", t, a.colType(t).Logical)
+		}
+	}
+	a.text = o.Text
+	if o.Time != "" {
+		if err := check("time", o.Time); err != nil {
+			return err
+		}
+		a.timeCol = o.Time
+	} else if a.timeCol != "" && !has[a.timeCol] {
+		a.timeCol = ""
+	}
+	if o.Entity != nil {
+		for _, e := range o.Entity {
+			if err := check("entity", e); err != nil {
+				return err
+			}
+		}
+		a.entity = o.Entity
+	} else {
+		for _, g := range a.groupBy {
+			if has[g] {
+				a.entity = append(a.entity, g)
+			}
+		}
+	}
+	for _, i := range o.Ignore {
+		if err := check("ignore", i); err != nil {
+			return err
+		}
+	}
+	out := map[string]bool{a.label: true}
+	for _, e := range a.entity {
+		out[e] = true
+	}
+	for _, k := range a.splitKeys {
+		out[k] = true
+	}
+	for _, i := range o.Ignore {
+		out[i] = true
+	}
+	for _, c := range a.cols {
+		if !out[c.Name] {
+			a.feature = append(a.feature, c.Name)
+		}
+	}
+	if len(a.sides) < 2 {
+		return inputf("--split: split %q has %d side(s); an audit compares at least two", a.split, len(a.sides))
+	}
+	return nil
+}
+
+// loadRows reads every row on a side, in row order, into typed columns.
+func (a *audit) loadRows() error {
+	sideIdx := map[string]int{}
+	var total int64
+	for i, s := range a.sides {
+		sideIdx[s.Name] = i
+		total += int64(s.Rows)
+	}
+	var sel strings.Builder
+	sel.WriteString(`SELECT r.row_id, r.side`)
+	a.data = map[string]*column{}
+	cols := make([]*column, len(a.cols))
+	for i, c := range a.cols {
+		fmt.Fprintf(&sel, ", t.%s", quoteIdent(c.Name))
+		cols[i] = &column{colInfo: c}
+		a.data[c.Name] = cols[i]
+	}
+	fmt.Fprintf(&sel, ` FROM ss_split_rows r JOIN %s t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side <> '' ORDER BY r.row_id`, quoteIdent(a.table))
+	rows, err := a.conn.QueryContext(a.ctx, sel.String(), a.split)
+	if err != nil {
+		return fmt.Errorf("read rows of split %s: %w", a.split, err)
+	}
+	defer rows.Close()
+	report, end := a.progress("audit: reading rows")
+	defer end()
+	vals := make([]any, len(a.cols)+2)
+	ptrs := make([]any, len(vals))
+	for i := range vals {
+		ptrs[i] = &vals[i]
+	}
+	for rows.Next() {
+		if err := rows.Scan(ptrs...); err != nil {
+			return err
+		}
+		id, _ := vals[0].(int64)
+		sn := asString(vals[1])
+		si, ok := sideIdx[sn]
+		if !ok {
+			return fmt.Errorf("split %s: row %d is on side %q, which ss_split_sides does not list", a.split, id, sn)
+		}
+		a.rowID = append(a.rowID, id)
+		a.side = append(a.side, si)
+		for i, c := range cols {
+			c.add(vals[i+2])
+		}
+		if n := len(a.rowID); report != nil && n%65536 == 0 {
+			report(int64(n), total)
+		}
+	}
+	return rows.Err()
+}
+
+func asString(v any) string {
+	switch x := v.(type) {
+	case string:
+		return x
+	case []byte:
+		return string(x)
+	case nil:
+		return ""
+	}
+	return fmt.Sprint(v)
+}
+
+func (c *column) add(v any) {
+	c.null = append(c.null, v == nil)
+	switch c.SQLType {
+	case "TEXT":
+		s := ""
+		switch x := v.(type) {
+		case string:
+			s = x
+		case []byte:
+			s = string(x)
+		case int64:
+			s = strconv.FormatInt(x, 10)
+		case float64:
+			s = strconv.FormatFloat(x, 'g', -1, 64)
+		}
+		c.str = append(c.str, s)
+	default:
+		f, i := math.NaN(), int64(0)
+		switch x := v.(type) {
+		case int64:
+			f, i = float64(x), x
+		case float64:
+			f, i = x, int64(x)
+		case bool:
+			if x {
+				f, i = 1, 1
+			} else {
+				f, i = 0, 0
+			}
+		case string:
+			if p, err := strconv.ParseFloat(x, 64); err == nil {
+				f, i = p, int64(p)
+			}
+		}
+		c.num = append(c.num, f)
+		c.ints = append(c.ints, i)
+	}
+}
+
+// validateData refuses a label with fewer than two classes and an all-empty text column.
+func (a *audit) validateData(run []*Check) error {
+	if a.label != "" {
+		c := a.data[a.label]
+		distinct := map[string]bool{}
+		for i := range a.rowID {
+			if !c.null[i] {
+				distinct[c.repr(i)] = true
+				if len(distinct) > 1 {
+					break
+				}
+			}
+		}
+		if len(distinct) < 2 {
+			return inputf("--label: column %q has %d distinct value(s) on the split's rows; a label needs at least two classes", a.label, len(distinct))
+		}
+	}
+	for _, t := range a.text {
+		c := a.data[t]
+		empty := true
+		for i := range a.rowID {
+			if !c.null[i] && NormalizeShingleText(c.str[i]) != "" {
+				empty = false
+				break
+			}
+		}
+		if empty {
+			return inputf("--text: column %q is empty (NULL, blank or punctuation only) on every row of the split", t)
+		}
+	}
+	return nil
+}
+
+// repr renders a value for grouping on raw values: type-tagged.
+func (c *column) repr(i int) string {
+	if c.null[i] {
+		return "\x00"
+	}
+	if c.SQLType == "TEXT" {
+		return "t" + c.str[i]
+	}
+	if c.SQLType == "INTEGER" {
+		return "i" + strconv.FormatInt(c.ints[i], 10)
+	}
+	return "r" + strconv.FormatFloat(c.num[i], 'g', -1, 64)
+}
+
+func quoteIdent(s string) string  { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
+func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`) + `'` }
+
+// add records a finding of the current check, ordering its rows per side.
+func (a *audit) add(f Finding) {
+	sort.Slice(f.Sides, func(i, j int) bool { return a.sidePos(f.Sides[i].Side) < a.sidePos(f.Sides[j].Side) })
+	f.anchor = math.MaxInt64
+	for k := range f.Sides {
+		sort.Slice(f.Sides[k].Rows, func(i, j int) bool { return f.Sides[k].Rows[i] < f.Sides[k].Rows[j] })
+		if len(f.Sides[k].Rows) > 0 && f.Sides[k].Rows[0] < f.anchor {
+			f.anchor = f.Sides[k].Rows[0]
+		}
+	}
+	if f.Evidence == nil {
+		f.Evidence = map[string]any{}
+	}
+	f.Check = a.check.Name
+	a.found = append(a.found, f)
+}
+
+func (a *audit) sidePos(name string) int {
+	for i, s := range a.sides {
+		if s.Name == name {
+			return i
+		}
+	}
+	return len(a.sides)
+}
+
+// groupSides turns row indexes into per-side row ids.
+func (a *audit) groupSides(idx []int32) []SideRows {
+	per := map[int][]int64{}
+	for _, i := range idx {
+		per[a.side[i]] = append(per[a.side[i]], a.rowID[i])
+	}
+	var out []SideRows
+	for s := range a.sides {
+		if r, ok := per[s]; ok {
+			out = append(out, SideRows{Side: a.sides[s].Name, Rows: r})
+		}
+	}
+	return out
+}
+
+func (a *audit) addQuery(q Query) {
+	a.queries = append(a.queries, q)
+}
+
+func (a *audit) write(qa QueryAdder, rep *Report) error {
+	// Order within a check: as the check emitted (each check sorts its own findings).
+	fs, err := a.conn.PrepareContext(a.ctx, `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES(?,?,?,?,?,?,?,?,?,?,?,?,?,?)`)
+	if err != nil {
+		return err
+	}
+	defer fs.Close()
+	rs, err := a.conn.PrepareContext(a.ctx, `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES(?,?,?,?)`)
+	if err != nil {
+		return err
+	}
+	defer rs.Close()
+	for i, f := range rep.Findings {
+		seq := i + 1
+		var sideA, sideB any
+		var nA, nB int
+		if f.SideA != "" {
+			sideA, nA = f.SideA, f.NA
+		}
+		if f.SideB != "" {
+			sideB, nB = f.SideB, f.NB
+		}
+		if len(f.Sides) > 0 {
+			sideA, nA = f.Sides[0].Side, len(f.Sides[0].Rows)
+		}
+		if len(f.Sides) > 1 {
+			sideB, nB = f.Sides[1].Side, len(f.Sides[1].Rows)
+		}
+		var score any
+		if !math.IsNaN(f.Score) && !math.IsInf(f.Score, 0) {
+			score = f.Score
+		}
+		var item, query any
+		if f.HasItem {
+			item = f.Item
+		}
+		if f.Query != "" {
+			query = f.Query
+		}
+		ev, err := json.Marshal(f.Evidence)
+		if err != nil {
+			return err
+		}
+		if _, err := fs.ExecContext(a.ctx, a.auditID, seq, f.Check, string(f.Severity), f.Subject, item, sideA, nA, sideB, nB, score, f.Message, string(ev), query); err != nil {
+			return err
+		}
+		for _, s := range f.Sides {
+			for _, r := range s.Rows {
+				if _, err := rs.ExecContext(a.ctx, a.auditID, seq, s.Side, r); err != nil {
+					return err
+				}
+			}
+		}
+	}
+	opts, _ := json.Marshal(rep.Resolved)
+	if _, err := a.conn.ExecContext(a.ctx, `UPDATE ss_audits SET options_json=?, errors=?, warnings=?, infos=? WHERE audit_id=?`,
+		string(opts), rep.Count(Error), rep.Count(Warn), rep.Count(Info), a.auditID); err != nil {
+		return err
+	}
+	for _, q := range rep.Queries {
+		if err := qa.AddAuditQuery(a.ctx, "audit:"+a.split, q.Name, q.Kind, q.Description, q.SQL, q.NeedsTool); err != nil {
+			return fmt.Errorf("store query %s: %w", q.Name, err)
+		}
+	}
+	return nil
+}

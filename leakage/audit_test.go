@@ -1,0 +1,263 @@
+package leakage
+
+import (
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"strings"
+	"testing"
+)
+
+var vocab = strings.Fields(`joint crack valve corrosion tuberculation root intrusion lateral sag offset deposit
+grease leak infiltration manhole bend tee reducer liner lining scour pitting spalling hydrant main service
+meter flange gasket bolt clamp sleeve repair patch flush camera survey sediment bedding backfill trench
+pavement settlement surge pressure transient chlorine residual discoloration turbidity odor taste`)
+
+func note(i int) string {
+	r := rand.New(rand.NewPCG(uint64(i), 9))
+	ws := make([]string, 14)
+	for k := range ws {
+		ws[k] = vocab[r.IntN(len(vocab))]
+	}
+	return strings.Join(ws, " ")
+}
+
+// pipesFixture: 40 rows, rows 1-30 train, 31-40 holdout, with planted leaks (constructed):
+// row 33 copies row 3 (material spaced and cased differently) and shares its segment;
+// rows 34 and 35 are identical holdout rows; row 36's notes are row 6's with one word
+// swapped; row 37 shares segment S07; row 38 copies row 8 with the other label; row 39 copies
+// row 9 with diameter changed in the 8th significant digit; work_order is filled in exactly
+// for failed rows (and row 38).
+func pipesFixture() *fixture {
+	f := &fixture{table: "pipes", split: "naive", roles: map[string]string{"train": "train", "holdout": "holdout"}, order: []string{"train", "holdout"}, groups: []string{"segment"},
+		cols: []fixCol{{"segment", "TEXT", "TEXT"}, {"inspected", "DATE", "TEXT"}, {"diameter", "REAL", "REAL"}, {"age", "INTEGER", "INTEGER"},
+			{"material", "TEXT", "TEXT"}, {"notes", "TEXT", "TEXT"}, {"work_order", "TEXT", "TEXT"}, {"failed", "INTEGER", "INTEGER"}}}
+	mats := []string{"cast iron", "PVC", "ductile"}
+	for i := 1; i <= 40; i++ {
+		failed := int64(0)
+		var wo any
+		if i%4 == 0 {
+			failed, wo = 1, fmt.Sprintf("WO-%04d", i)
+		}
+		row := []any{fmt.Sprintf("S%02d", i), fmt.Sprintf("2024-%02d-%02d", 1+i/28, 1+i%28), 100 + 1.5*float64(i), int64(2 * i), mats[i%3], note(i), wo, failed}
+		f.rows = append(f.rows, row)
+		side := "train"
+		if i > 30 {
+			side = "holdout"
+		}
+		f.sides = append(f.sides, side)
+	}
+	cp := func(dst, src int) { f.rows[dst-1] = append([]any(nil), f.rows[src-1]...) }
+	cp(33, 3)
+	f.rows[32][4] = "  CAST   Iron "
+	cp(34, 35)
+	f.rows[33][0] = "S34"
+	f.rows[35][5] = strings.Replace(note(6), strings.Fields(note(6))[7], "zzzz", 1)
+	f.rows[36][0] = "S07"
+	cp(38, 8)
+	f.rows[37][0], f.rows[37][7] = "S38", int64(0)
+	cp(39, 9)
+	f.rows[38][0], f.rows[38][2] = "S39", 113.50001
+	return f
+}
+
+type got struct {
+	check, subject string
+	sev            Severity
+	rows           string
+}
+
+func summarize(rep *Report, check string) []got {
+	var out []got
+	for _, f := range rep.Findings {
+		if f.Check != check {
+			continue
+		}
+		var parts []string
+		for _, s := range f.Sides {
+			parts = append(parts, fmt.Sprintf("%s:%v", s.Side, s.Rows))
+		}
+		out = append(out, got{f.Check, f.Subject, f.Severity, strings.Join(parts, " ")})
+	}
+	return out
+}
+
+func TestRun_PlantedLeaks(t *testing.T) {
+	path := pipesFixture().create(t)
+	rep, err := runAudit(t, path, Options{Split: "naive", Label: "failed", Text: []string{"notes"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := map[string][]got{
+		"exact_duplicate": {
+			{"exact_duplicate", "across sides", Error, "train:[3] holdout:[33]"},
+			{"exact_duplicate", "across sides", Error, "train:[8] holdout:[38]"},
+			{"exact_duplicate", "within holdout", Warn, "holdout:[34 35]"},
+		},
+		"near_duplicate_text": {
+			{"near_duplicate_text", "notes", Error, "train:[3] holdout:[33]"},
+			{"near_duplicate_text", "notes", Warn, "train:[6] holdout:[36]"},
+			{"near_duplicate_text", "notes", Error, "train:[8] holdout:[38]"},
+			{"near_duplicate_text", "notes", Error, "train:[9] holdout:[39]"},
+		},
+		"near_duplicate_numeric": {{"near_duplicate_numeric", "across sides", Warn, "train:[9] holdout:[39]"}},
+		"shared_entity": {
+			{"shared_entity", "segment", Error, "train:[3] holdout:[33]"},
+			{"shared_entity", "segment", Error, "train:[7] holdout:[37]"},
+		},
+		"label_conflict": {{"label_conflict", "across sides", Error, "train:[8] holdout:[38]"}},
+	}
+	for check, w := range want {
+		g := summarize(rep, check)
+		if fmt.Sprint(g) != fmt.Sprint(w) {
+			t.Errorf("%s:\n got  %v\n want %v", check, g, w)
+		}
+	}
+	// work_order is filled in for the failed rows (and row 38): its missingness AUC flags it.
+	var leak []string
+	for _, f := range rep.Findings {
+		if f.Check == "leaking_feature" && f.Severity == Error {
+			leak = append(leak, f.Subject+"/"+f.Item)
+		}
+	}
+	if fmt.Sprint(leak) != "[work_order/missingness_auc]" {
+		t.Errorf("leaking features = %v", leak)
+	}
+	if len(rep.Skipped) != 1 || rep.Skipped[0].Check != "time_overlap" {
+		t.Errorf("skipped = %v", rep.Skipped)
+	}
+	// Every stored check query replays to no rows.
+	for name, n := range replay(t, path, "naive") {
+		if n != 0 {
+			t.Errorf("stored query %s returns %d rows, want 0", name, n)
+		}
+	}
+	// Deterministic: a second audit gives the same findings.
+	rep2, err := runAudit(t, path, Options{Split: "naive", Label: "failed", Text: []string{"notes"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fmt.Sprint(summarize(rep, "")) != fmt.Sprint(summarize(rep2, "")) || len(rep.Findings) != len(rep2.Findings) {
+		t.Error("second audit differs")
+	}
+	for i := range rep.Findings {
+		if rep.Findings[i].Message != rep2.Findings[i].Message {
+			t.Errorf("finding %d differs: %q vs %q", i, rep.Findings[i].Message, rep2.Findings[i].Message)
+		}
+	}
+}
+
+func TestRun_ReplayDetectsTampering(t *testing.T) {
+	path := pipesFixture().create(t)
+	if _, err := runAudit(t, path, Options{Split: "naive", Label: "failed"}); err != nil {
+		t.Fatal(err)
+	}
+	// Change a holdout row so it is no longer a copy of row 3: the stored query now reports it.
+	db := openRW(t, path)
+	if _, err := db.Exec(`UPDATE pipes SET age = 999 WHERE ss_row = 33`); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	got := replay(t, path, "naive")
+	if got["exact_duplicate.across"] == 0 || got["shared_entity.segment"] != 0 {
+		t.Errorf("replay after tampering: %v", got)
+	}
+}
+
+func TestRun_TimeOverlap(t *testing.T) {
+	// Constructed: train rows dated days 1..8 and one on day 20; holdout from day 10; entity
+	// E1 has train rows on days 1 and 20 and a holdout row on day 12 (interleaved); the spec
+	// asks for a 30-day gap.
+	f := &fixture{table: "t", split: "bytime", roles: map[string]string{"train": "train", "test": "holdout"}, order: []string{"train", "test"},
+		cols: []fixCol{{"entity", "TEXT", "TEXT"}, {"day", "DATE", "TEXT"}, {"x", "REAL", "REAL"}}, timeCol: "day", gap: "30d", groups: []string{"entity"}}
+	add := func(e string, day int, side string) {
+		f.rows = append(f.rows, []any{e, fmt.Sprintf("2024-01-%02d", day), float64(len(f.rows))})
+		f.sides = append(f.sides, side)
+	}
+	add("E1", 1, "train")
+	for d := 2; d <= 8; d++ {
+		add(fmt.Sprintf("A%d", d), d, "train")
+	}
+	add("E1", 20, "train")
+	add("E1", 12, "test")
+	add("B1", 10, "test")
+	add("B2", 25, "test")
+	path := f.create(t)
+	rep, err := runAudit(t, path, Options{Split: "bytime", Checks: []string{"time_overlap"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	g := summarize(rep, "time_overlap")
+	want := "[{time_overlap train after holdout start error train:[9]} {time_overlap entity warn train:[1 9] test:[10]}]"
+	if fmt.Sprint(g[:2]) != want {
+		t.Errorf("got %v\nwant %v", g, want)
+	}
+	// Gap: last training day 20, first holdout day 10: -10 days, shorter than 30d.
+	if len(g) != 3 || g[2].subject != "gap" || rep.Findings[2].Score != -10*86400 {
+		t.Errorf("gap finding: %+v", rep.Findings)
+	}
+	for name, n := range replay(t, path, "bytime") {
+		if n != 0 {
+			t.Errorf("stored query %s returns %d rows", name, n)
+		}
+	}
+}
+
+func TestRun_BadInput(t *testing.T) {
+	f := pipesFixture()
+	path := f.create(t)
+	before, _ := os.ReadFile(path)
+	tests := []struct {
+		name string
+		opts Options
+		msg  string
+	}{
+		{"unknown label", Options{Split: "naive", Label: "faild"}, `--label: table pipes has no column "faild"`},
+		{"unknown text", Options{Split: "naive", Text: []string{"note"}}, `--text: table pipes has no column "note"`},
+		{"unknown check", Options{Split: "naive", Checks: []string{"exact_dupe"}}, `--checks: unknown check "exact_dupe"`},
+		{"unknown split", Options{Split: "nope"}, `--split: no split "nope" (splits: naive)`},
+		{"needs label", Options{Split: "naive", Checks: []string{"leaking_feature"}}, "check leaking_feature: needs --label"},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			_, err := runAudit(t, path, tt.opts)
+			var ie *InputError
+			if !errors.As(err, &ie) || !strings.Contains(err.Error(), tt.msg) {
+				t.Fatalf("err = %v, want an InputError containing %q", err, tt.msg)
+			}
+		})
+	}
+	after, _ := os.ReadFile(path)
+	if string(before) != string(after) {
+		t.Error("a refused audit changed the database")
+	}
+}
+
+func TestRun_OneClassLabelAndEmptyText(t *testing.T) {
+	f := &fixture{table: "t", split: "s", roles: map[string]string{"a": "train", "b": "holdout"}, order: []string{"a", "b"},
+		cols: []fixCol{{"y", "INTEGER", "INTEGER"}, {"txt", "TEXT", "TEXT"}}}
+	for i := 0; i < 6; i++ {
+		f.rows = append(f.rows, []any{int64(1), []any{nil, " ", "..."}[i%3]})
+		f.sides = append(f.sides, []string{"a", "b"}[i%2])
+	}
+	path := f.create(t)
+	_, err := runAudit(t, path, Options{Split: "s", Label: "y"})
+	if err == nil || !strings.Contains(err.Error(), `--label: column "y" has 1 distinct value(s)`) {
+		t.Errorf("one class: %v", err)
+	}
+	_, err = runAudit(t, path, Options{Split: "s", Text: []string{"txt"}})
+	if err == nil || !strings.Contains(err.Error(), `--text: column "txt" is empty`) {
+		t.Errorf("empty text: %v", err)
+	}
+}
+
+func TestValidate_All(t *testing.T) {
+	if err := Validate(All()); err != nil {
+		t.Fatal(err)
+	}
+	bad := []*Check{{Name: "Bad Name"}, ExactDuplicate, ExactDuplicate}
+	if err := Validate(bad); err == nil {
+		t.Error("want errors for a bad catalog")
+	}
+}

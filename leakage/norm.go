@@ -1,0 +1,183 @@
+package leakage
+
+import (
+	"fmt"
+	"slices"
+	"strconv"
+	"strings"
+	"unicode/utf8"
+)
+
+// NormalizeValue is the text normalisation of exact_duplicate (and the SQL function
+// leak_norm): tabs, carriage returns and line feeds become spaces, runs of spaces collapse to
+// one, the ends are trimmed of spaces and ASCII letters are lower-cased. It is defined by the
+// same string operations as its stock-SQL form (NormalizeSQL), so stored queries reproduce it
+// with plain SQLite: lower(trim(collapse(x))), where collapse replaces ' ' by ' '||char(1),
+// removes char(1)||' ' and then char(1).
+func NormalizeValue(s string) string {
+	s = strings.ReplaceAll(s, "\t", " ")
+	s = strings.ReplaceAll(s, "\n", " ")
+	s = strings.ReplaceAll(s, "\r", " ")
+	s = strings.ReplaceAll(s, " ", " \x01")
+	s = strings.ReplaceAll(s, "\x01 ", "")
+	s = strings.ReplaceAll(s, "\x01", "")
+	s = strings.Trim(s, " ")
+	return asciiLower(s)
+}
+
+// NormalizeSQL is NormalizeValue as a stock SQLite expression over expr.
+func NormalizeSQL(expr string) string {
+	return fmt.Sprintf(`lower(trim(replace(replace(replace(replace(replace(replace(%s, char(9), ' '), char(10), ' '), char(13), ' '), ' ', ' ' || char(1)), char(1) || ' ', ''), char(1), '')))`, expr)
+}
+
+func asciiLower(s string) string {
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; c >= 'A' && c <= 'Z' {
+			b := []byte(s)
+			for j := i; j < len(b); j++ {
+				if b[j] >= 'A' && b[j] <= 'Z' {
+					b[j] += 'a' - 'A'
+				}
+			}
+			return string(b)
+		}
+	}
+	return s
+}
+
+// RoundSignificant renders x rounded to digits significant digits in the form SQLite's
+// printf('%.{digits-1}e', x) gives (e.g. 3 digits: 1234.5 -> "1.23e+03").
+func RoundSignificant(x float64, digits int) string {
+	if digits < 1 {
+		digits = 1
+	}
+	return strconv.FormatFloat(x, 'e', digits-1, 64)
+}
+
+// RoundSignificantSQL is RoundSignificant as a stock SQLite expression.
+func RoundSignificantSQL(expr string, digits int) string {
+	if digits < 1 {
+		digits = 1
+	}
+	return fmt.Sprintf(`printf('%%.%de', %s)`, digits-1, expr)
+}
+
+// keySpec says how a row's feature key is formed.
+type keySpec struct {
+	cols      []string
+	normalize bool // text normalised (NormalizeValue); otherwise raw
+	realDig   int  // significant digits for REAL values
+	intDig    int  // significant digits for INTEGER values; 0 = exact
+}
+
+// Each value contributes 'n' when NULL, else 'v' || length(s) || ':' || s, where s is the
+// normalised value; values are joined with '|'. Length-prefixing makes the key unambiguous.
+func (a *audit) keySQL(k keySpec, alias string) string {
+	if len(k.cols) == 0 {
+		return "''"
+	}
+	var parts []string
+	for _, name := range k.cols {
+		c := a.data[name]
+		x := alias + "." + quoteIdent(name)
+		var s string
+		switch {
+		case c.SQLType == "TEXT" && k.normalize:
+			s = NormalizeSQL(x)
+		case c.SQLType == "TEXT":
+			s = x
+		case c.SQLType == "INTEGER" && k.intDig == 0:
+			s = x
+		case c.SQLType == "INTEGER":
+			s = RoundSignificantSQL(x, k.intDig)
+		default:
+			s = RoundSignificantSQL(x, k.realDig)
+		}
+		parts = append(parts, fmt.Sprintf("CASE WHEN %s IS NULL THEN 'n' ELSE 'v' || length(%s) || ':' || %s END", x, s, s))
+	}
+	return strings.Join(parts, " || '|' || ")
+}
+
+// keys computes every row's key hash (FNV-1a 64 over the same bytes keySQL builds).
+func (a *audit) keys(k keySpec) []uint64 {
+	out := make([]uint64, len(a.rowID))
+	cols := make([]*column, len(k.cols))
+	for i, n := range k.cols {
+		cols[i] = a.data[n]
+	}
+	parallel(len(out), a.workers, func(lo, hi int) {
+		var buf []byte
+		for i := lo; i < hi; i++ {
+			buf = buf[:0]
+			for j, c := range cols {
+				if j > 0 {
+					buf = append(buf, '|')
+				}
+				if c.null[i] {
+					buf = append(buf, 'n')
+					continue
+				}
+				var s string
+				switch {
+				case c.SQLType == "TEXT" && k.normalize:
+					s = NormalizeValue(c.str[i])
+				case c.SQLType == "TEXT":
+					s = c.str[i]
+				case c.SQLType == "INTEGER" && k.intDig == 0:
+					s = strconv.FormatInt(c.ints[i], 10)
+				case c.SQLType == "INTEGER":
+					s = RoundSignificant(float64(c.ints[i]), k.intDig)
+				default:
+					s = RoundSignificant(c.num[i], k.realDig)
+				}
+				buf = append(buf, 'v')
+				buf = strconv.AppendInt(buf, int64(utf8.RuneCountInString(s)), 10)
+				buf = append(buf, ':')
+				buf = append(buf, s...)
+			}
+			h := uint64(fnvOffset)
+			for _, b := range buf {
+				h ^= uint64(b)
+				h *= fnvPrime
+			}
+			out[i] = h
+		}
+	})
+	return out
+}
+
+// groupsOf returns the runs of row indexes sharing a key, for runs longer than one, each
+// ascending, ordered by their first index.
+func groupsOf(keys []uint64) [][]int32 {
+	type kv struct {
+		k uint64
+		i int32
+	}
+	arr := make([]kv, len(keys))
+	for i, k := range keys {
+		arr[i] = kv{k, int32(i)}
+	}
+	slices.SortFunc(arr, func(x, y kv) int {
+		if c := cmpU64(x.k, y.k); c != 0 {
+			return c
+		}
+		return int(x.i - y.i)
+	})
+	var out [][]int32
+	for i := 0; i < len(arr); {
+		j := i + 1
+		for j < len(arr) && arr[j].k == arr[i].k {
+			j++
+		}
+		if j-i > 1 {
+			g := make([]int32, j-i)
+			for t := range g {
+				g[t] = arr[i+t].i
+			}
+			out = append(out, g)
+		}
+		i = j
+	}
+	slices.SortFunc(out, func(x, y []int32) int { return int(x[0] - y[0]) })
+	return out
+}

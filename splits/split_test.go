@@ -1,0 +1,409 @@
+package splits
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"reflect"
+	"strings"
+	"testing"
+)
+
+// genRows makes n rows of (id INTEGER, grp TEXT, cls TEXT, day DATE, x REAL) from a seed:
+// ngroups groups, classes a (60%), b (30%), c (10%), days spread over 2020.
+func genRows(seed uint64, n, ngroups, from int) [][]any {
+	r := rand.New(rand.NewPCG(seed, 99))
+	out := make([][]any, n)
+	for i := range out {
+		cls := "a"
+		switch u := r.Float64(); {
+		case u > 0.9:
+			cls = "c"
+		case u > 0.6:
+			cls = "b"
+		}
+		day := fmt.Sprintf("2020-%02d-%02d", 1+r.IntN(12), 1+r.IntN(28))
+		out[i] = []any{int64(from + i), fmt.Sprintf("G%04d", r.IntN(ngroups)), cls, day, math.Round(r.NormFloat64()*1000)/1000 + 0} // + 0: no -0 (SQLite stores REAL -0.0 as 0)
+	}
+	return out
+}
+
+var genCols = []col{{"id", "INTEGER"}, {"grp", "TEXT"}, {"cls", "TEXT"}, {"day", "DATE"}, {"x", "REAL"}}
+
+func TestSplit_RandomReproducibleAndSeeded(t *testing.T) {
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(1, 2000, 300, 1), nil)
+	spec := Spec{Name: "r", Table: "t", Seed: 7, Sides: Sides{{"train", 0.7}, {"valid", 0.15}, {"holdout", 0.15}}}
+	mustSplit(t, path, spec)
+	first := readRows(t, path, "r")
+	mustSplit(t, path, spec)
+	if second := readRows(t, path, "r"); !reflect.DeepEqual(first, second) {
+		t.Error("two runs of the same spec differ")
+	}
+	c := sideCounts(first)
+	// Binomial: 2000 rows at 0.7 → sd ≈ 20.5; allow 4 sd (a rule of thumb, no source).
+	if math.Abs(float64(c["train"])-1400) > 82 || math.Abs(float64(c["holdout"])-300) > 64 {
+		t.Errorf("side counts %v far from 0.7/0.15/0.15 of 2000", c)
+	}
+	checkAuditQueries(t, path, "r")
+	spec.Name, spec.Seed = "r2", 8
+	mustSplit(t, path, spec)
+	other := readRows(t, path, "r2")
+	moved := 0
+	for id, a := range first {
+		if other[id].side != a.side {
+			moved++
+		}
+	}
+	// Independent seeds: P(same side) = 0.7²+2·0.15² = 0.535, so about 930 of 2000 differ.
+	if moved < 700 {
+		t.Errorf("changing the seed moved only %d of 2000 rows", moved)
+	}
+	// Default key is the content digest: exact duplicate rows share a side.
+	dup := query(t, path, `SELECT count(*) FROM (SELECT t.ss_digest FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 'r' GROUP BY t.ss_digest HAVING count(DISTINCT r.side) > 1)`)
+	if dup[0] != "0" {
+		t.Errorf("duplicates on two sides: %v", dup)
+	}
+}
+
+func TestSplit_StableUnderAppend(t *testing.T) {
+	tests := []struct {
+		name string
+		spec Spec
+	}{
+		{"random", Spec{Sides: Sides{{"train", 0.8}, {"holdout", 0.2}}}},
+		{"random key", Spec{Key: []string{"id"}, Sides: Sides{{"train", 0.8}, {"holdout", 0.2}}}},
+		{"grouped", Spec{Group: []string{"grp"}}},
+		{"grouped two columns", Spec{Group: []string{"grp", "id"}}},
+		{"stratified hash", Spec{Stratify: "cls", StratifyMode: "hash"}},
+		{"random folds", Spec{Folds: 5}},
+		{"time cutoff", Spec{Time: "day", Cutoff: "2020-10-01", Gap: "7d"}},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			path := newDB(t)
+			makeTable(t, path, "t", genCols, genRows(2, 1000, 150, 1), nil)
+			sp := tt.spec
+			sp.Name, sp.Table, sp.Seed = "s", "t", 3
+			mustSplit(t, path, sp)
+			before := readRows(t, path, "s")
+			// New rows: new groups and existing groups (G0000..G0149 reused, G0150.. new).
+			appendRows(t, path, "t", genCols, genRows(3, 500, 300, 1001))
+			mustSplit(t, path, sp)
+			after := readRows(t, path, "s")
+			if len(after) != 1500 {
+				t.Fatalf("after append: %d rows", len(after))
+			}
+			for id, a := range before {
+				if after[id] != a {
+					t.Fatalf("row %d moved from %+v to %+v after appending rows", id, a, after[id])
+				}
+			}
+		})
+	}
+}
+
+func TestSplit_GroupedNoEntityOnTwoSides(t *testing.T) {
+	path := newDB(t)
+	// Union-find over two columns: rows 1-2 share an email, rows 2-3 share a phone, so rows
+	// 1, 2, 3 are one customer; row 4 has NULLs in both (its own entity).
+	cols := []col{{"email", "TEXT"}, {"phone", "TEXT"}, {"v", "INTEGER"}}
+	var rows [][]any
+	rows = append(rows, []any{"a@x", "111", int64(1)}, []any{"a@x", "222", int64(2)}, []any{"b@x", "222", int64(3)}, []any{nil, nil, int64(4)})
+	r := rand.New(rand.NewPCG(5, 5))
+	for i := 0; i < 3000; i++ {
+		rows = append(rows, []any{fmt.Sprintf("u%d@x", r.IntN(800)), fmt.Sprintf("%d", 1000+r.IntN(900)), int64(i)})
+	}
+	makeTable(t, path, "c", cols, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "g", Table: "c", Seed: 1, Group: []string{"email", "phone"}})
+	got := readRows(t, path, "g")
+	if got[1].side != got[2].side || got[2].side != got[3].side {
+		t.Errorf("rows linked by email then phone split across sides: %v %v %v", got[1], got[2], got[3])
+	}
+	for _, c := range []string{"email", "phone"} {
+		bad := query(t, path, `SELECT count(*) FROM (SELECT t.`+c+` FROM ss_split_rows r JOIN c t ON t.ss_row = r.row_id WHERE r.split_name = 'g' AND t.`+c+` IS NOT NULL GROUP BY t.`+c+` HAVING count(DISTINCT r.side) > 1)`)
+		if bad[0] != "0" {
+			t.Errorf("%s values on two sides: %s", c, bad[0])
+		}
+	}
+	if res.Notes["null_group_rows"] != 1 {
+		t.Errorf("null_group_rows = %v, want 1", res.Notes["null_group_rows"])
+	}
+	var groups int
+	for _, s := range res.Sides {
+		groups += *s.Groups
+	}
+	if groups != res.Notes["entities"] {
+		t.Errorf("side groups sum %d, entities %v", groups, res.Notes["entities"])
+	}
+	checkAuditQueries(t, path, "g")
+	// Refuse policy names the row.
+	_, err := split(t, path, Spec{Name: "g2", Table: "c", Group: []string{"email", "phone"}, GroupNulls: "refuse"}, false)
+	var de *DataError
+	if !errors.As(err, &de) || !strings.Contains(err.Error(), "data.csv:5 (ss_row 4") {
+		t.Errorf("refuse: err = %v", err)
+	}
+}
+
+func TestSplit_StratifiedWithinOneRow(t *testing.T) {
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(4, 1234, 100, 1), nil)
+	fr := []float64{0.6, 0.25, 0.15}
+	mustSplit(t, path, Spec{Name: "s", Table: "t", Seed: 9, Stratify: "cls", Sides: Sides{{"train", fr[0]}, {"valid", fr[1]}, {"holdout", fr[2]}}})
+	per := query(t, path, `SELECT t.cls, r.side, count(*), (SELECT count(*) FROM t AS u WHERE u.cls = t.cls) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 's' GROUP BY t.cls, r.side`)
+	if len(per) != 9 {
+		t.Fatalf("want 3 strata × 3 sides, got %v", per)
+	}
+	idx := map[string]int{"train": 0, "valid": 1, "holdout": 2}
+	for _, p := range per {
+		f := strings.Split(p, "|")
+		var n, ns int
+		fmt.Sscan(f[2], &n)
+		fmt.Sscan(f[3], &ns)
+		if d := math.Abs(float64(n) - fr[idx[f[1]]]*float64(ns)); d >= 1 {
+			t.Errorf("stratum %s side %s: %d rows of %d, target %.2f (off by %.2f ≥ 1 row)", f[0], f[1], n, ns, fr[idx[f[1]]]*float64(ns), d)
+		}
+	}
+	checkAuditQueries(t, path, "s")
+	// Stratified folds: every stratum within one row of n_s/K in each fold.
+	mustSplit(t, path, Spec{Name: "f", Table: "t", Seed: 9, Stratify: "cls", Folds: 4})
+	pf := query(t, path, `SELECT t.cls, r.fold, count(*), (SELECT count(*) FROM t AS u WHERE u.cls = t.cls) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 'f' GROUP BY t.cls, r.fold`)
+	for _, p := range pf {
+		f := strings.Split(p, "|")
+		var n, ns int
+		fmt.Sscan(f[2], &n)
+		fmt.Sscan(f[3], &ns)
+		if math.Abs(float64(n)-float64(ns)/4) >= 1 {
+			t.Errorf("stratum %s fold %s: %d of %d", f[0], f[1], n, ns)
+		}
+	}
+	// A stratum smaller than K is refused.
+	makeTable(t, path, "small", []col{{"cls", "TEXT"}}, [][]any{{"a"}, {"a"}, {"a"}, {"b"}, {"b"}}, nil)
+	_, err := split(t, path, Spec{Name: "bad", Table: "small", Stratify: "cls", Folds: 3}, false)
+	var fe *FieldError
+	if !errors.As(err, &fe) || !strings.Contains(err.Error(), `stratum cls="b" has 2 row(s)`) {
+		t.Errorf("small stratum: err = %v", err)
+	}
+}
+
+// scikit-learn's GroupKFold invariant on the groups of its user guide example: no group in two
+// test folds. The fold contents, as sets, equal what
+//
+//	/usr/bin/python3 -c "import numpy as np; from sklearn.model_selection import GroupKFold;
+//	  [print(te.tolist()) for _, te in GroupKFold(n_splits=3).split(np.zeros((10,1)),
+//	  groups=[1,1,1,2,2,2,3,3,3,3])]"
+//
+// prints with scikit-learn 1.2.1 (Debian python3-sklearn): [6, 7, 8, 9], [3, 4, 5], [0, 1, 2].
+func TestSplit_GroupKFoldExample(t *testing.T) {
+	path := newDB(t)
+	g := []int64{1, 1, 1, 2, 2, 2, 3, 3, 3, 3}
+	var rows [][]any
+	for i, x := range g {
+		rows = append(rows, []any{int64(i), x})
+	}
+	makeTable(t, path, "t", []col{{"i", "INTEGER"}, {"g", "INTEGER"}}, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "k", Table: "t", Seed: 1, Group: []string{"g"}, Folds: 3})
+	got := readRows(t, path, "k")
+	folds := map[int64][]int{}
+	groupFold := map[int64]int64{}
+	for id, a := range got {
+		grp := g[id-1]
+		if f, ok := groupFold[grp]; ok && f != a.fold {
+			t.Errorf("group %d in folds %d and %d", grp, f, a.fold)
+		}
+		groupFold[grp] = a.fold
+		folds[a.fold] = append(folds[a.fold], int(id-1))
+	}
+	var sets []string
+	for f := int64(1); f <= 3; f++ {
+		s := folds[f]
+		sortInts(s)
+		sets = append(sets, fmt.Sprint(s))
+	}
+	sortStrings(sets)
+	want := []string{"[0 1 2]", "[3 4 5]", "[6 7 8 9]"}
+	if !reflect.DeepEqual(sets, want) {
+		t.Errorf("fold test sets %v, want %v (scikit-learn GroupKFold)", sets, want)
+	}
+	if len(res.Folds) != 3 || res.Folds[0].TestRows+res.Folds[1].TestRows+res.Folds[2].TestRows != 10 {
+		t.Errorf("fold summary %+v", res.Folds)
+	}
+	checkAuditQueries(t, path, "k")
+}
+
+// scikit-learn's TimeSeriesSplit example with a gap, recomputed with
+//
+//	/usr/bin/python3 -c "import numpy as np; from sklearn.model_selection import TimeSeriesSplit;
+//	  [print(tr.tolist(), te.tolist()) for tr, te in
+//	  TimeSeriesSplit(n_splits=3, test_size=2, gap=2).split(np.arange(12).reshape(-1,1))]"
+//
+// (scikit-learn 1.2.1, Debian python3-sklearn):
+//
+//	[0, 1, 2, 3] [6, 7]
+//	[0, 1, 2, 3, 4, 5] [8, 9]
+//	[0, 1, 2, 3, 4, 5, 6, 7] [10, 11]
+func TestSplit_RollingOriginMatchesTimeSeriesSplit(t *testing.T) {
+	wantTrain := [][]int{{0, 1, 2, 3}, {0, 1, 2, 3, 4, 5}, {0, 1, 2, 3, 4, 5, 6, 7}}
+	wantTest := [][]int{{6, 7}, {8, 9}, {10, 11}}
+	for _, gap := range []struct {
+		name string
+		spec Spec
+	}{{"gap rows", Spec{GapRows: 2}}, {"gap duration", Spec{Gap: "2d"}}} {
+		t.Run(gap.name, func(t *testing.T) {
+			path := newDB(t)
+			var rows [][]any
+			// Inserted out of time order to show the ordering is by time, not ss_row.
+			for _, i := range []int{5, 0, 11, 3, 8, 1, 10, 2, 7, 4, 9, 6} {
+				rows = append(rows, []any{int64(i), fmt.Sprintf("2024-01-%02d", i+1)})
+			}
+			makeTable(t, path, "ts", []col{{"i", "INTEGER"}, {"d", "DATE"}}, rows, nil)
+			sp := gap.spec
+			sp.Name, sp.Table, sp.Time, sp.Folds, sp.TestSize = "roll", "ts", "d", 3, 2
+			res := mustSplit(t, path, sp)
+			got := readRows(t, path, "roll")
+			for k := 1; k <= 3; k++ {
+				var train, test []int
+				for id, a := range got {
+					i := int(rows[id-1][0].(int64))
+					if a.fold == int64(k) {
+						test = append(test, i)
+					}
+					if a.tf != 0 && a.tf <= int64(k) {
+						train = append(train, i)
+					}
+				}
+				sortInts(train)
+				sortInts(test)
+				if !reflect.DeepEqual(train, wantTrain[k-1]) || !reflect.DeepEqual(test, wantTest[k-1]) {
+					t.Errorf("fold %d: train %v test %v, want %v %v (TimeSeriesSplit)", k, train, test, wantTrain[k-1], wantTest[k-1])
+				}
+				if res.Folds[k-1].TrainRows != len(wantTrain[k-1]) || res.Folds[k-1].Excluded != 2 {
+					t.Errorf("fold %d summary %+v", k, res.Folds[k-1])
+				}
+			}
+			checkAuditQueries(t, path, "roll")
+		})
+	}
+}
+
+// Purging and embargo as defined by López de Prado, Advances in Financial Machine Learning
+// (2018), ch. 7: a training observation whose label interval [t, label_end] overlaps the test
+// period is purged; observations immediately before the test period (the gap) are dropped.
+func TestSplit_TimeGapAndPurge(t *testing.T) {
+	path := newDB(t)
+	var rows [][]any
+	for i := 0; i < 100; i++ {
+		day := fmt.Sprintf("2021-%s", dayOf(i))
+		end := fmt.Sprintf("2021-%s", dayOf(i+(i%7)*3)) // label known 0..18 days later
+		rows = append(rows, []any{int64(i), day, end})
+	}
+	makeTable(t, path, "e", []col{{"i", "INTEGER"}, {"d", "DATE"}, {"end", "DATE"}}, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "p", Table: "e", Time: "d", Cutoff: "2021-03-11", Gap: "5d", LabelEnd: "end"})
+	got := readRows(t, path, "p")
+	cut := "2021-03-11"
+	gapStart := "2021-03-06"
+	for id, a := range got {
+		day, end := rows[id-1][1].(string), rows[id-1][2].(string)
+		switch {
+		case day >= cut:
+			if a.side != "holdout" {
+				t.Errorf("row %d (%s) at or after the cutoff is on %q", id, day, a.side)
+			}
+		case day >= gapStart:
+			if a.side != "" || a.reason != "gap" {
+				t.Errorf("row %d (%s) inside the 5-day gap: %+v", id, day, a)
+			}
+		case end >= cut:
+			if a.side != "" || a.reason != "purge" {
+				t.Errorf("row %d (%s, label end %s) overlaps the holdout: %+v", id, day, end, a)
+			}
+		default:
+			if a.side != "train" {
+				t.Errorf("row %d (%s, label end %s) should train: %+v", id, day, end, a)
+			}
+		}
+	}
+	if res.Dropped["gap"] != 5 || res.Dropped["purge"] == 0 {
+		t.Errorf("dropped %v", res.Dropped)
+	}
+	checkAuditQueries(t, path, "p")
+}
+
+// dayOf renders day i (0 = Jan 1) of 2021 as MM-DD.
+func dayOf(i int) string {
+	m := []int{31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31}
+	mo := 0
+	for i >= m[mo] {
+		i -= m[mo]
+		mo++
+	}
+	return fmt.Sprintf("%02d-%02d", mo+1, i+1)
+}
+
+func TestSplit_TimeFractionsAndSpan(t *testing.T) {
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(6, 3000, 2000, 1), nil)
+	for _, span := range []string{"drop", "earlier", "entity"} {
+		name := "s_" + span
+		res := mustSplit(t, path, Spec{Name: name, Table: "t", Seed: 2, Time: "day", Group: []string{"grp"}, Span: span, Gap: "3d"})
+		bad := query(t, path, `SELECT count(*) FROM (SELECT t.grp FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side <> '' GROUP BY t.grp HAVING count(DISTINCT r.side) > 1)`, name)
+		if bad[0] != "0" {
+			t.Errorf("span %s: %s groups on two sides", span, bad[0])
+		}
+		if span != "earlier" {
+			order := query(t, path, `SELECT (SELECT max(t.day) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side = 'train') < (SELECT min(t.day) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side = 'holdout')`, name, name)
+			if order[0] != "1" {
+				t.Errorf("span %s: train reaches into the holdout period", span)
+			}
+			checkAuditQueries(t, path, name)
+		}
+		if res.Notes["spanning_entities"] == 0 {
+			t.Errorf("span %s: no spanning entities reported", span)
+		}
+	}
+	// Ungrouped, by fractions: ties never straddle the boundary.
+	mustSplit(t, path, Spec{Name: "tf", Table: "t", Time: "day"})
+	order := query(t, path, `SELECT (SELECT max(t.day) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 'tf' AND r.side = 'train') < (SELECT min(t.day) FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 'tf' AND r.side = 'holdout')`)
+	if order[0] != "1" {
+		t.Error("time split by fractions is not time-ordered")
+	}
+}
+
+func TestSplit_Adopted(t *testing.T) {
+	path := newDB(t)
+	rows := [][]any{{int64(1)}, {int64(2)}, {int64(3)}, {int64(4)}, {int64(5)}}
+	makeTable(t, path, "d", []col{{"v", "INTEGER"}}, rows, []string{"in/train.csv", "in/train.csv", "in/test.csv.gz", "in/train.csv", "in/test.csv.gz"})
+	res := mustSplit(t, path, Spec{Name: "a", Table: "d", FromColumn: "ss_source"})
+	got := readRows(t, path, "a")
+	want := []string{"train", "train", "test", "train", "test"}
+	for i, w := range want {
+		if got[int64(i+1)].side != w {
+			t.Errorf("row %d: %q, want %q", i+1, got[int64(i+1)].side, w)
+		}
+	}
+	if res.Sides[0].Role != "train" || res.Sides[1].Role != "holdout" {
+		t.Errorf("roles %+v", res.Sides)
+	}
+	checkAuditQueries(t, path, "a")
+	_, err := split(t, path, Spec{Name: "b", Table: "d", FromColumn: "ss_source", Map: map[string]string{"in/train.csv": "train"}}, false)
+	if err == nil || !strings.Contains(err.Error(), `"in/test.csv.gz"`) {
+		t.Errorf("unmapped value: err = %v", err)
+	}
+}
+
+func sortInts(s []int) {
+	for i := 1; i < len(s); i++ {
+		for j := i; j > 0 && s[j] < s[j-1]; j-- {
+			s[j], s[j-1] = s[j-1], s[j]
+		}
+	}
+}
+
+func sortStrings(s []string) {
+	for i := 1; i < len(s); i++ {
+		for j := i; j > 0 && s[j] < s[j-1]; j-- {
+			s[j], s[j-1] = s[j-1], s[j]
+		}
+	}
+}

@@ -283,6 +283,30 @@ func nanSlice(k int) []float64 {
 	return s
 }
 
+// FitFamily fits one family to points exactly as Extrapolate does (per-size means, weights
+// from the smoothed spread across repeats when every size has at least two), without the
+// backtest; SQL's est_fit_pow3 calls it.
+func FitFamily(points []Point, family string) (Fit, error) {
+	fam, err := FamilyByName(family)
+	if err != nil {
+		return Fit{}, err
+	}
+	groups, err := groupPoints(points, "point")
+	if err != nil {
+		return Fit{}, err
+	}
+	if len(groups) < len(fam.Params) {
+		return Fit{}, fmt.Errorf("%w: %d distinct sizes for %d parameters", ErrTooFewSizes, len(groups), len(fam.Params))
+	}
+	weighted := true
+	for _, g := range groups {
+		if len(g.errs) < 2 {
+			weighted = false
+		}
+	}
+	return fitFamily(fam, summarise(groups, weighted), nil)
+}
+
 // better reports whether fit beats fits[best]: the smaller backtest error wins; AIC decides
 // when either backtest is missing or they tie.
 func better(fit Fit, fits []Fit, best int) bool {
@@ -701,15 +725,17 @@ func verdict(r *Result, o Options) string {
 			fmt.Fprintf(&b, " The target %s is at or below the asymptote: not reachable with this capacity; more data will not get there, more capacity might.", num(T))
 		case !r.Reachable:
 			fmt.Fprintf(&b, " The target %s lies within the asymptote's interval: it may not be reachable with this capacity (the point estimate is n* ≈ %s, upper bound %s); more capacity might be needed.", num(T), num(r.NStar.Est), num(r.NStar.Hi))
+		case r.NStar.Est <= largest:
+			fmt.Fprintf(&b, " The fitted curve already reaches the target %s within the measured sizes, at n* ≈ %s (%s interval %s to %s).", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi))
 		default:
-			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), num(math.Ceil(r.NStar.Est)), pct, num(math.Ceil(r.NStar.Lo)), num(math.Ceil(r.NStar.Hi)), r.NStar.Est/largest)
+			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi), r.NStar.Est/largest)
 			if r.NStar.Est > 10*largest {
 				b.WriteString(" That is far beyond the measured sizes: treat it as a rough guide.")
 			}
 		}
 	}
 	if r.AtErr != nil {
-		fmt.Fprintf(&b, " At n = %s the expected error is %s (%s interval %s to %s).", num(o.At), num(r.AtErr.Est), pct, num(r.AtErr.Lo), num(r.AtErr.Hi))
+		fmt.Fprintf(&b, " At n = %s the expected error is %s (%s interval %s to %s).", sizeNum(o.At), num(r.AtErr.Est), pct, num(r.AtErr.Lo), num(r.AtErr.Hi))
 	}
 	if g := r.Gap; g != nil {
 		if g.VarianceLimited {
@@ -733,6 +759,19 @@ func familyDoc(name string) string {
 		return ""
 	}
 	return f.Doc
+}
+
+// SizeString prints a training size rounded up to a whole number ("unbounded" for +Inf).
+func SizeString(v float64) string { return sizeNum(v) }
+
+func sizeNum(v float64) string {
+	switch {
+	case math.IsInf(v, 1) || v >= 1e15:
+		return "unbounded"
+	case math.IsNaN(v):
+		return "n/a"
+	}
+	return strconv.FormatFloat(math.Ceil(v), 'f', 0, 64)
 }
 
 // num prints a value with 4 significant digits ("unbounded" for +Inf).

@@ -83,11 +83,11 @@ var nistModels = map[string]Model{
 			g[2] = b[0] / b[1] * e * z / b[1]
 		},
 	},
-	"Misra1b": {F: func(x float64, b []float64) float64 { return b[0] * (1 - math.Pow(1+b[1]*x/2, -2)) }},
-	"Misra1c": {F: func(x float64, b []float64) float64 { return b[0] * (1 - math.Pow(1+2*b[1]*x, -0.5)) }},
-	"Misra1d": {F: func(x float64, b []float64) float64 { return b[0] * b[1] * x / (1 + b[1]*x) }},
-	"Rat42":   {F: func(x float64, b []float64) float64 { return b[0] / (1 + math.Exp(b[1]-b[2]*x)) }},
-	"MGH10":   {F: func(x float64, b []float64) float64 { return b[0] * math.Exp(b[1]/(x+b[2])) }},
+	"Misra1b":  {F: func(x float64, b []float64) float64 { return b[0] * (1 - math.Pow(1+b[1]*x/2, -2)) }},
+	"Misra1c":  {F: func(x float64, b []float64) float64 { return b[0] * (1 - math.Pow(1+2*b[1]*x, -0.5)) }},
+	"Misra1d":  {F: func(x float64, b []float64) float64 { return b[0] * b[1] * x / (1 + b[1]*x) }},
+	"Rat42":    {F: func(x float64, b []float64) float64 { return b[0] / (1 + math.Exp(b[1]-b[2]*x)) }},
+	"MGH10":    {F: func(x float64, b []float64) float64 { return b[0] * math.Exp(b[1]/(x+b[2])) }},
 	"Bennett5": {F: func(x float64, b []float64) float64 { return b[0] * math.Pow(b[1]+x, -1/b[2]) }},
 	"Kirby2": {F: func(x float64, b []float64) float64 {
 		return (b[0] + b[1]*x + b[2]*x*x) / (1 + b[3]*x + b[4]*x*x)

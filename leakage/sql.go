@@ -114,19 +114,19 @@ func SQL() sqlfn.Set {
 		{Name: "leak_auc", NArgs: 2, Deterministic: true, Args: "score, label",
 			Doc:      "aggregate: area under the roc curve of score for rows where label is true (mann-whitney u / (n1*n0), ties half); rows with a null skipped",
 			Examples: []sqlfn.Example{{SQL: `SELECT leak_auc(s, l) FROM (SELECT 19 AS s, 1 AS l UNION ALL SELECT 22, 1 UNION ALL SELECT 16, 1 UNION ALL SELECT 29, 1 UNION ALL SELECT 24, 1 UNION ALL SELECT 20, 0 UNION ALL SELECT 11, 0 UNION ALL SELECT 17, 0 UNION ALL SELECT 12, 0)`, Want: "0.85"}},
-			NewAgg: func() sqlfn.Agg { return &aucAgg{} }},
+			NewAgg:   func() sqlfn.Agg { return &aucAgg{} }},
 		{Name: "leak_psi", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: population stability index of the rows where reference is false against those where it is true (deciles of the reference, or levels for text; null a bin of its own)",
 			Examples: []sqlfn.Example{{SQL: `SELECT round(leak_psi(x, r), 6) FROM (SELECT 'a' AS x, 1 AS r UNION ALL SELECT 'b', 1 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'b', 0)`, Want: "0.143841"}},
-			NewAgg: func() sqlfn.Agg { return &twoSampleAgg{psi: true} }},
+			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{psi: true} }},
 		{Name: "leak_ks", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: two-sample kolmogorov-smirnov statistic d between the rows where reference is true and the others (nulls skipped)",
 			Examples: []sqlfn.Example{{SQL: `SELECT round(leak_ks(x, r), 6) FROM (SELECT 1.01 AS x, 1 AS r UNION ALL SELECT 2.01, 1 UNION ALL SELECT 1, 0 UNION ALL SELECT 2, 0 UNION ALL SELECT 3, 0)`, Want: "0.333333"}},
-			NewAgg: func() sqlfn.Agg { return &twoSampleAgg{} }},
+			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{} }},
 		{Name: "leak_ks_p", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: two-sided p-value of leak_ks (exact for n1*n2 <= 10000, else asymptotic)",
 			Examples: []sqlfn.Example{{SQL: `SELECT leak_ks_p(x, r) FROM (SELECT 0.99 AS x, 1 AS r UNION ALL SELECT 1.99, 1 UNION ALL SELECT 1, 0 UNION ALL SELECT 2, 0 UNION ALL SELECT 3, 0)`, Want: "0.6"}},
-			NewAgg: func() sqlfn.Agg { return &twoSampleAgg{p: true} }},
+			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{p: true} }},
 	}}
 }
 

@@ -207,3 +207,5 @@ func sideCounts(rows map[int64]rowAssign) map[string]int {
 }
 
 var _ = fmt.Sprint
+
+func sqlRender(v any) string { return sqlfn.Render(v) }

@@ -12,6 +12,8 @@ import (
 	"math/rand/v2"
 	"runtime"
 	"sort"
+	"strconv"
+	"strings"
 	"sync"
 )
 
@@ -113,12 +115,12 @@ func (o CurveOptions) resolve(train, holdout Data) (CurveOptions, error) {
 		return o, fmt.Errorf("training side has %d features, holdout %d", train.P, holdout.P)
 	}
 	if ClassificationMetric(o.Metric) {
-		if err := checkBinary(train.Y); err != nil {
+		if err := checkBinary(train); err != nil {
 			return o, fmt.Errorf("training side: %w", err)
 		}
 		for i, v := range holdout.Y {
 			if v != 0 && v != 1 {
-				return o, fmt.Errorf("holdout side row %d: label %v is not 0 or 1", i+1, v)
+				return o, fmt.Errorf("holdout side %s: label %v is not 0 or 1", holdout.where(i), v)
 			}
 		}
 	} else if constant(train.Y) {
@@ -289,6 +291,9 @@ func permutation(seed uint64, r, n int) []int {
 	return rand.New(rand.NewPCG(seed, 0x5eed0000+uint64(r))).Perm(n)
 }
 
+// MeasureCurves reports mistakes in opts or data (too few sizes, a constant label, ...) as
+// errors matching ErrInput.
+//
 // MeasureCurves trains the model at every capacity on nested seeded subsets of train and
 // scores it on the subset (training error) and on holdout (holdout error). Features are
 // standardised with the whole training side's mean and standard deviation (so every subset
@@ -301,7 +306,7 @@ func MeasureCurves(ctx context.Context, train, holdout Data, opts *CurveOptions)
 	}
 	o, err := opts.resolve(train, holdout)
 	if err != nil {
-		return nil, err
+		return nil, inputError{err}
 	}
 	var pts []CurvePoint
 	switch o.Model {
@@ -434,8 +439,8 @@ func curvesLogistic(ctx context.Context, train, holdout Data, o CurveOptions) ([
 			copy(a[row*m:(row+1)*m], trainX[src*mFull:src*mFull+m])
 			y[row] = train.Y[src]
 		}
-		if err := checkBinary(y); err != nil {
-			return fmt.Errorf("repeat %d size %d: %w; use larger sizes", it.r+1, n, err)
+		if err := checkBinary(Data{Y: y}); err != nil {
+			return inputf("repeat %d size %d: %v; use larger sizes", it.r+1, n, err)
 		}
 		beta, _, err := IRLS(a, y, n, m, lambda)
 		if err != nil {
@@ -562,4 +567,268 @@ func (m *KNN) Predict(x []float64) float64 {
 		s += m.y[nb.idx]
 	}
 	return s / float64(m.K)
+}
+
+// SweepOptions configure Summarise: the extrapolation options passed to Extrapolate for every
+// capacity (Target, At, Bootstrap, Level, Seed, Families, Holdout; Train is filled in).
+type SweepOptions = Options
+
+// CapacityResult is one capacity's fitted curve.
+type CapacityResult struct {
+	Capacity float64
+	Result   *Result // nil when no curve could be fitted (Err says why)
+	Err      string
+	MaxErr   float64 // largest mean holdout error over the sizes
+	// Reached is true when a measured size already meets the target (mean holdout error ≤
+	// target); ReachedAt is the first such size, and n* is then read off the measurements,
+	// not extrapolated.
+	Reached   bool
+	ReachedAt int
+}
+
+// SizeBest is the capacity with the lowest mean holdout error at one size.
+type SizeBest struct {
+	Size     int
+	Capacity float64
+	MeanErr  float64
+}
+
+// SweepReport is the planner's summary of a capacity sweep.
+type SweepReport struct {
+	Model, Metric string
+	Target, At    float64
+	TrainRows     int
+	Capacities    []CapacityResult
+	BestAt        []SizeBest // per measured size, ascending
+	// BestCapacity / BestNStar: the capacity whose curve reaches Target at the smallest n
+	// (NaN when no capacity reaches it).
+	BestCapacity float64
+	BestNStar    *Interval
+	Verdict      string
+	Caution      string
+}
+
+// CapacityLabel names a capacity for people: "degree 3", or "k = 5" for knn.
+func CapacityLabel(model string, c float64) string {
+	if model == "knn" {
+		return fmt.Sprintf("k = %g", c)
+	}
+	return fmt.Sprintf("degree %g", c)
+}
+
+// MaxMeanErr is the largest mean holdout error over all (capacity, size) of points: the upper
+// end of the range a target must lie in.
+func MaxMeanErr(points []CurvePoint) float64 {
+	type key struct {
+		c float64
+		n int
+	}
+	sum := map[key]float64{}
+	cnt := map[key]int{}
+	for _, p := range points {
+		k := key{p.Capacity, p.Size}
+		sum[k] += p.HoldoutErr
+		cnt[k]++
+	}
+	mx := 0.0
+	for k, s := range sum {
+		mx = math.Max(mx, s/float64(cnt[k]))
+	}
+	return mx
+}
+
+// Summarise fits and extrapolates each capacity's holdout curve (Extrapolate, with the
+// training-error points for the overfitting diagnosis), finds the capacity that reaches the
+// target soonest, and the best capacity at each measured size (the crossover where a higher
+// capacity starts to pay off). trainRows is the size of the whole training side.
+func Summarise(points []CurvePoint, model, metric string, trainRows int, opts *SweepOptions) (*SweepReport, error) {
+	o := Options{}
+	if opts != nil {
+		o = *opts
+	}
+	rep := &SweepReport{Model: model, Metric: metric, Target: o.Target, At: o.At, TrainRows: trainRows, BestCapacity: math.NaN(), Caution: Caution}
+	if o.Target != 0 {
+		if mx := MaxMeanErr(points); !(o.Target > 0 && o.Target < mx) {
+			return nil, inputError{fmt.Errorf("%w: target %g must lie in (0, %g), the largest mean holdout error measured", ErrBadTarget, o.Target, mx)}
+		}
+	}
+	byCap := map[float64][]CurvePoint{}
+	var caps []float64
+	for _, p := range points {
+		if _, ok := byCap[p.Capacity]; !ok {
+			caps = append(caps, p.Capacity)
+		}
+		byCap[p.Capacity] = append(byCap[p.Capacity], p)
+	}
+	sort.Float64s(caps)
+	// Best capacity per size.
+	sizes := map[int]bool{}
+	for _, p := range points {
+		sizes[p.Size] = true
+	}
+	var sz []int
+	for n := range sizes {
+		sz = append(sz, n)
+	}
+	sort.Ints(sz)
+	for _, n := range sz {
+		best := SizeBest{Size: n, MeanErr: math.Inf(1)}
+		for _, c := range caps {
+			var s float64
+			var k int
+			for _, p := range byCap[c] {
+				if p.Size == n {
+					s += p.HoldoutErr
+					k++
+				}
+			}
+			if k > 0 && s/float64(k) < best.MeanErr {
+				best.MeanErr, best.Capacity = s/float64(k), c
+			}
+		}
+		rep.BestAt = append(rep.BestAt, best)
+	}
+	for _, c := range caps {
+		var hold, train []Point
+		for _, p := range byCap[c] {
+			hold = append(hold, Point{N: float64(p.Size), Err: p.HoldoutErr, Repeat: p.Repeat})
+			train = append(train, Point{N: float64(p.Size), Err: p.TrainErr, Repeat: p.Repeat})
+		}
+		cr := CapacityResult{Capacity: c, MaxErr: MaxMeanErr(byCap[c])}
+		oc := o
+		oc.Train = train
+		prev := 0
+		if o.Target != 0 {
+			for _, n := range sz {
+				var s float64
+				var k int
+				for _, p := range byCap[c] {
+					if p.Size == n {
+						s += p.HoldoutErr
+						k++
+					}
+				}
+				if k > 0 && s/float64(k) <= o.Target {
+					cr.Reached, cr.ReachedAt = true, n
+					break
+				}
+				if k > 0 {
+					prev = n
+				}
+			}
+			if o.Target >= maxPointErr(hold) {
+				oc.Target = 0 // nothing to extrapolate; Extrapolate refuses such a target
+			}
+		}
+		res, err := Extrapolate(hold, &oc)
+		if err != nil {
+			if errors.Is(err, ErrTooFewSizes) || errors.Is(err, ErrBadTarget) {
+				return nil, inputError{err}
+			}
+			cr.Err = err.Error()
+		}
+		cr.Result = res
+		rep.Capacities = append(rep.Capacities, cr)
+		var nstar *Interval
+		switch {
+		case cr.Reached:
+			nstar = &Interval{Est: float64(cr.ReachedAt), Lo: float64(prev), Hi: float64(cr.ReachedAt), Method: "measured"}
+		case res != nil && res.NStar != nil && res.Reachable && !math.IsInf(res.NStar.Est, 0):
+			nstar = res.NStar
+		}
+		if nstar != nil && (rep.BestNStar == nil || nstar.Est < rep.BestNStar.Est) {
+			rep.BestCapacity, rep.BestNStar = c, nstar
+		}
+	}
+	rep.Verdict = sweepVerdict(rep)
+	return rep, nil
+}
+
+func maxPointErr(p []Point) float64 {
+	mx := 0.0
+	for _, q := range p {
+		mx = math.Max(mx, q.Err)
+	}
+	return mx
+}
+
+func fmtN(v float64) string {
+	if math.IsInf(v, 1) {
+		return "unbounded"
+	}
+	return strconv.FormatFloat(math.Ceil(v), 'f', 0, 64)
+}
+
+// sweepVerdict is the planner's answer in a few plain sentences.
+func sweepVerdict(r *SweepReport) string {
+	var b strings.Builder
+	lab := func(c float64) string { return CapacityLabel(r.Model, c) }
+	if r.Target != 0 {
+		if r.BestNStar != nil {
+			iv := r.BestNStar
+			if iv.Method == "measured" {
+				fmt.Fprintf(&b, "The target %s %g is already met with %s: its mean holdout error is at or below it from %s training rows on (measured, not extrapolated; the training side has %d).", r.Metric, r.Target, lab(r.BestCapacity), fmtN(iv.Est), r.TrainRows)
+			} else {
+				fmt.Fprintf(&b, "The target %s %g is reached soonest with %s, at about %s training rows (%s interval %s to %s); the training side has %d.",
+					r.Metric, r.Target, lab(r.BestCapacity), fmtN(iv.Est), iv.Method, fmtN(iv.Lo), fmtN(iv.Hi), r.TrainRows)
+				if iv.Est <= float64(r.TrainRows) {
+					b.WriteString(" The data in hand should already suffice.")
+				} else {
+					fmt.Fprintf(&b, " That is about %s more rows than the training side has.", fmtN(iv.Est-float64(r.TrainRows)))
+				}
+			}
+		} else {
+			fmt.Fprintf(&b, "No capacity tried reaches the target %s %g: more data will not get there; more capacity might.", r.Metric, r.Target)
+		}
+		var unreach, noisy []string
+		for _, c := range r.Capacities {
+			if c.Result != nil && c.Result.NStar != nil && !c.Result.Reachable && !c.Reached && r.BestNStar != nil {
+				if c.Result.Gap != nil && c.Result.Gap.VarianceLimited {
+					noisy = append(noisy, lab(c.Capacity))
+				} else {
+					unreach = append(unreach, lab(c.Capacity))
+				}
+			}
+		}
+		if len(unreach) > 0 {
+			fmt.Fprintf(&b, " With %s the target is at or below the fitted asymptote: more data will not get there, more capacity might (underfitting).", strings.Join(unreach, ", "))
+		}
+		if len(noisy) > 0 {
+			fmt.Fprintf(&b, " With %s the fitted curve does not reach the target either, but its training error is far below its holdout error: the curve is dominated by variance at these sizes, so its asymptote is poorly determined; less capacity or more regularisation is the safer choice.", strings.Join(noisy, ", "))
+		}
+	}
+	if len(r.BestAt) > 0 {
+		var parts []string
+		start := r.BestAt[0]
+		for i := 1; i <= len(r.BestAt); i++ {
+			if i == len(r.BestAt) || r.BestAt[i].Capacity != start.Capacity {
+				end := r.BestAt[i-1].Size
+				if start.Size == end {
+					parts = append(parts, fmt.Sprintf("%s at n = %d", lab(start.Capacity), end))
+				} else {
+					parts = append(parts, fmt.Sprintf("%s for n = %d to %d", lab(start.Capacity), start.Size, end))
+				}
+				if i < len(r.BestAt) {
+					start = r.BestAt[i]
+				}
+			}
+		}
+		fmt.Fprintf(&b, " Lowest holdout error: %s.", strings.Join(parts, ", then "))
+	}
+	var over []string
+	for _, c := range r.Capacities {
+		if c.Result != nil && c.Result.Gap != nil && c.Result.Gap.VarianceLimited {
+			g := c.Result.Gap
+			s := fmt.Sprintf("%s (training error %.0f%% of holdout", lab(c.Capacity), 100*g.Ratio)
+			if !math.IsNaN(g.Exponent) {
+				s += fmt.Sprintf(", gap shrinking about as n^(−%.2g)", g.Exponent)
+			}
+			over = append(over, s+")")
+		}
+	}
+	if len(over) > 0 {
+		fmt.Fprintf(&b, " Variance-limited (overfitting) at the largest size: %s; more data narrows the gap.", strings.Join(over, "; "))
+	}
+	b.WriteString(" " + Caution)
+	return strings.TrimSpace(b.String())
 }

@@ -36,6 +36,15 @@ type Data struct {
 	Y      []float64
 	N, P   int
 	Groups []int
+	Rows   []int64 // optional: the table's ss_row of each row, for messages
+}
+
+// where names row i for a message: "ss_row 17" when Rows is set, else "row 18".
+func (d Data) where(i int) string {
+	if i < len(d.Rows) {
+		return fmt.Sprintf("ss_row %d", d.Rows[i])
+	}
+	return fmt.Sprintf("row %d", i+1)
 }
 
 // Row returns row i of the feature matrix.
@@ -361,7 +370,7 @@ func FitLogistic(d Data, deg int, l2 float64) (*Logistic, error) {
 	if err := d.check("logistic"); err != nil {
 		return nil, err
 	}
-	if err := checkBinary(d.Y); err != nil {
+	if err := checkBinary(d); err != nil {
 		return nil, err
 	}
 	basis, err := newPolyBasis(d.P, deg, d.Groups)
@@ -393,11 +402,15 @@ func l2Lambda(v float64) float64 {
 	return v
 }
 
-func checkBinary(y []float64) error {
+func checkBinary(d Data) error {
+	y := d.Y
+	if len(y) > 0 && constant(y) {
+		return fmt.Errorf("label is constant (%v): a classifier needs both classes 0 and 1", y[0])
+	}
 	var n1 int
 	for i, v := range y {
 		if v != 0 && v != 1 {
-			return fmt.Errorf("row %d: label %v is not 0 or 1", i+1, v)
+			return fmt.Errorf("%s: label %v is not 0 or 1", d.where(i), v)
 		}
 		if v == 1 {
 			n1++

@@ -1,0 +1,597 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"splitsmith/estimate"
+	"splitsmith/internal/store"
+)
+
+const curveHint = "splitsmith estimate curve --db pipes.db --split sound --label wall_loss_pct --features install_year,pressure_kpa --model ridge --capacity 1,2,3"
+
+type curveOptions struct {
+	db        string
+	spec      estimate.LoadSpec
+	curve     estimate.CurveOptions
+	extra     estimate.Options // Target, At, Bootstrap, Level, Seed
+	plot      string
+	format    string
+	sizesAuto bool
+}
+
+func newEstimateCurveCommand(s stdio) *cli.Command {
+	return &cli.Command{
+		Name:  "curve",
+		Usage: "measure learning curves on a split at several model capacities, fit and extrapolate them",
+		Description: `Trains a built-in model at each capacity on nested random subsets of the split's
+training side (about 8 sizes, geometric from a small n to the whole side, unless --sizes),
+--repeats times with different seeded subsets, and scores it on the subset (training error)
+and on the holdout side (holdout error). Each capacity's holdout curve is then fitted and
+extrapolated (curve families pow3, pow2, exp3, log2, chosen by a backtest; bootstrap
+intervals): its asymptote, the n* at which it reaches --target, the error expected at --at.
+The report says which capacity reaches the target soonest, which capacity is best at each
+size (the crossover), when a target is below a capacity's asymptote (underfitting: more data
+will not get there, more capacity might), and when training error is far below holdout
+error (variance-limited: overfitting, and how the gap shrinks with n).
+
+MODELS (capacity knob)
+   ridge      polynomial ridge regression; capacity = total degree over the features,
+              interactions included (features standardised before expanding)
+   logistic   logistic regression on polynomial features, 0/1 label; capacity = degree
+   knn        k-nearest neighbours (regression, or 0/1 label with a classification metric);
+              --capacity lists k (capacity 1/k: smaller k, more flexible)
+
+METRICS   regression: mse (default), rmse, mae; classification: error (default for
+          logistic), logloss, auc (stored and fitted as 1 − AUC, so every curve falls)
+
+FEATURES  INTEGER, REAL, BOOLEAN columns as numbers (a missing value is the training mean,
+          plus a <col>:missing indicator); TEXT columns one-hot encoded with the training
+          side's levels (reference: the most frequent; missing is a level of its own; unseen
+          holdout levels count as the reference). Rows without a label are skipped.
+
+Results go to ss_est_curve_runs, ss_est_curve_points and ss_est_curve_fits. Every estimate
+is an extrapolation, not a guarantee; clinical or safety models need qualified statistical
+review.
+
+Examples:
+   splitsmith estimate curve --db pipes.db --split sound --label wall_loss_pct \
+       --features install_year,pressure_kpa,soil_moisture --model ridge --capacity 1,2,3,4 \
+       --metric rmse --target 2.4 --plot wall_loss.svg
+   splitsmith estimate curve --db pipes.db --split sound --label repaired_365d \
+       --features wall_loss_pct,prior_breaks --model logistic --capacity 1,2 --metric logloss`,
+		Flags: []cli.Flag{
+			dbFlag(),
+			&cli.StringFlag{Name: "split", Usage: "split `NAME` (required)"},
+			&cli.StringFlag{Name: "label", Usage: "label `COL` (required): numeric; 0/1 for classification metrics"},
+			&cli.StringFlag{Name: "features", Usage: "feature columns `COL,...` (required)"},
+			&cli.StringFlag{Name: "model", Value: "ridge", Usage: "`MODEL`: ridge, logistic or knn"},
+			&cli.StringFlag{Name: "capacity", Usage: "capacities `LIST` (required): degrees, or k for knn"},
+			&cli.StringFlag{Name: "sizes", Value: "auto", Usage: "training sizes `LIST` (increasing), or auto"},
+			&cli.IntFlag{Name: "repeats", Value: 5, Usage: "seeded subsets per size `R`"},
+			&cli.StringFlag{Name: "metric", Usage: "`METRIC`: mse, rmse, mae, error, logloss, auc (default mse; error for logistic)"},
+			&cli.Float64Flag{Name: "target", Usage: "target error `T` (in the metric's units): report n*, the size that reaches it"},
+			&cli.Float64Flag{Name: "at", Usage: "planned training size `N`: report the error expected there"},
+			&cli.IntFlag{Name: "bootstrap", Value: 1000, Usage: "bootstrap refits `B` per capacity for the intervals"},
+			&cli.Float64Flag{Name: "level", Value: 0.95, Usage: "confidence `LEVEL` of the intervals"},
+			&cli.StringFlag{Name: "train-side", Usage: "train on this `SIDE` (default: the sides whose role is train)"},
+			&cli.StringFlag{Name: "holdout-side", Usage: "evaluate on this `SIDE` (default: the sides whose role is holdout)"},
+			seedFlag(),
+			&cli.StringFlag{Name: "plot", Usage: "write the curves to `FILE` (.svg or .png)"},
+			formatFlag("table", "table", "json"),
+		},
+		Action: func(cc *cli.Context) error {
+			o, err := curveFlags(cc)
+			if err != nil {
+				return err
+			}
+			return runEstimateCurve(cc.Context, cc, o, s)
+		},
+	}
+}
+
+func splitList(flag, v string) ([]string, error) {
+	var out []string
+	for _, f := range strings.Split(v, ",") {
+		f = strings.TrimSpace(f)
+		if f == "" {
+			return nil, usagef(curveHint, "--%s: %q has an empty item", flag, v)
+		}
+		out = append(out, f)
+	}
+	return out, nil
+}
+
+func curveFlags(cc *cli.Context) (curveOptions, error) {
+	if cc.NArg() > 0 {
+		return curveOptions{}, usagef(curveHint, "unexpected argument %q", cc.Args().First())
+	}
+	o := curveOptions{db: cc.String("db"), plot: cc.String("plot")}
+	for _, req := range []string{"split", "label", "features", "capacity"} {
+		if cc.String(req) == "" {
+			return o, usagef(curveHint, "--%s is required", req)
+		}
+	}
+	o.spec = estimate.LoadSpec{Split: cc.String("split"), Label: cc.String("label"),
+		TrainSide: cc.String("train-side"), HoldoutSide: cc.String("holdout-side")}
+	var err error
+	if o.spec.Features, err = splitList("features", cc.String("features")); err != nil {
+		return o, err
+	}
+	if o.format, err = checkChoice(cc, "format", "table", "json"); err != nil {
+		return o, err
+	}
+	model, err := checkChoice(cc, "model", estimate.Models...)
+	if err != nil {
+		return o, err
+	}
+	o.curve = estimate.CurveOptions{Model: model, Repeats: cc.Int("repeats"), Seed: cc.Uint64("seed")}
+	if m := cc.String("metric"); m != "" {
+		if o.curve.Metric, err = checkChoice(cc, "metric", estimate.Metrics...); err != nil {
+			return o, err
+		}
+	}
+	caps, err := splitList("capacity", cc.String("capacity"))
+	if err != nil {
+		return o, err
+	}
+	for _, c := range caps {
+		v, err := strconv.ParseFloat(c, 64)
+		if err != nil {
+			return o, usagef(curveHint, "--capacity: %q is not a number", c)
+		}
+		o.curve.Capacities = append(o.curve.Capacities, v)
+	}
+	if sz := cc.String("sizes"); sz != "auto" {
+		items, err := splitList("sizes", sz)
+		if err != nil {
+			return o, err
+		}
+		for _, it := range items {
+			v, err := strconv.Atoi(it)
+			if err != nil {
+				return o, usagef(curveHint, "--sizes: %q is not a whole number", it)
+			}
+			o.curve.Sizes = append(o.curve.Sizes, v)
+		}
+		if len(o.curve.Sizes) < estimate.MinSizes {
+			return o, usagef(curveHint, "--sizes: %d sizes given, a curve needs at least %d", len(o.curve.Sizes), estimate.MinSizes)
+		}
+	} else {
+		o.sizesAuto = true
+	}
+	if o.curve.Repeats < 1 {
+		return o, usagef(curveHint, "--repeats: %d, must be at least 1", o.curve.Repeats)
+	}
+	t := cc.Float64("target")
+	if cc.IsSet("target") && !(t > 0) {
+		return o, usagef(curveHint, "--target: %g, must lie in (0, the largest measured error)", t)
+	}
+	at := cc.Float64("at")
+	if cc.IsSet("at") && !(at >= 1) {
+		return o, usagef(curveHint, "--at: %g, must be a training size of at least 1", at)
+	}
+	b := cc.Int("bootstrap")
+	if b < 1 {
+		return o, usagef(curveHint, "--bootstrap: %d, must be at least 1", b)
+	}
+	lv := cc.Float64("level")
+	if !(lv > 0 && lv < 1) {
+		return o, usagef(curveHint, "--level: %g, must lie in (0, 1)", lv)
+	}
+	if o.plot != "" {
+		if ext := strings.ToLower(filepath.Ext(o.plot)); ext != ".svg" && ext != ".png" {
+			return o, usagef(curveHint, "--plot: %q must end in .svg or .png", o.plot)
+		}
+	}
+	o.extra = estimate.Options{Target: t, At: at, Bootstrap: b, Level: lv, Seed: o.curve.Seed}
+	return o, nil
+}
+
+// curveResult is what estimate curve reports (and prints as JSON).
+type curveResult struct {
+	Split        string                `json:"split"`
+	Table        string                `json:"table"`
+	Label        string                `json:"label"`
+	Features     []string              `json:"features"`
+	Columns      []string              `json:"encoded_columns"`
+	Model        string                `json:"model"`
+	Metric       string                `json:"metric"`
+	TrainSides   []string              `json:"train_sides"`
+	HoldoutSides []string              `json:"holdout_sides"`
+	TrainRows    int                   `json:"train_rows"`
+	HoldoutRows  int                   `json:"holdout_rows"`
+	Sizes        []int                 `json:"sizes"`
+	Repeats      int                   `json:"repeats"`
+	Seed         uint64                `json:"seed"`
+	Notes        []string              `json:"notes"`
+	Measured     []curveMeasured       `json:"measured"`
+	Capacities   []curveCapacity       `json:"capacities"`
+	BestAt       []estimate.SizeBest   `json:"best_at_size"`
+	BestCapacity *float64              `json:"best_capacity"`
+	BestNStar    *estimate.Interval    `json:"best_nstar"`
+	Verdict      string                `json:"verdict"`
+	Caution      string                `json:"caution"`
+	RunID        int64                 `json:"run_id"`
+	report       *estimate.SweepReport `json:"-"`
+	points       []estimate.CurvePoint `json:"-"`
+}
+
+type curveMeasured struct {
+	Capacity   float64 `json:"capacity"`
+	Size       int     `json:"size"`
+	TrainMean  float64 `json:"train_err_mean"`
+	HoldMean   float64 `json:"holdout_err_mean"`
+	HoldSD     float64 `json:"holdout_err_sd"`
+	HoldMin    float64 `json:"holdout_err_min"`
+	HoldMax    float64 `json:"holdout_err_max"`
+	Repeats    int     `json:"repeats"`
+	BestAtSize bool    `json:"best_at_size"`
+}
+
+type curveCapacity struct {
+	Capacity    float64            `json:"capacity"`
+	Family      string             `json:"family,omitempty"`
+	Params      []float64          `json:"params,omitempty"`
+	BacktestErr *float64           `json:"backtest_err"`
+	Asymptote   *estimate.Interval `json:"asymptote,omitempty"`
+	NStar       *estimate.Interval `json:"nstar,omitempty"`
+	Reachable   *bool              `json:"reachable,omitempty"`
+	AtErr       *estimate.Interval `json:"at_err,omitempty"`
+	Variance    *bool              `json:"variance_limited,omitempty"`
+	ReachedAt   int                `json:"target_met_at_size,omitempty"`
+	Verdict     string             `json:"verdict"`
+}
+
+func finite(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
+}
+
+// measureCurves runs the whole estimate curve computation inside tx and stores it.
+func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *progress) (*curveResult, error) {
+	ld, err := estimate.LoadSplit(ctx, tx.Conn, o.spec)
+	if err != nil {
+		return nil, curveErr(err)
+	}
+	co := o.curve
+	co.Progress = prog.Report
+	pts, err := estimate.MeasureCurves(ctx, ld.Train, ld.Holdout, &co)
+	prog.Done()
+	if err != nil {
+		return nil, curveErr(err)
+	}
+	rep, err := estimate.Summarise(pts, co.Model, metricOf(co), ld.Train.N, &o.extra)
+	if err != nil {
+		return nil, curveErr(err)
+	}
+	resolved := co
+	resolved.Metric = metricOf(co)
+	resolved.Sizes = sizesOf(pts)
+	cr := &estimate.CurveRun{RunID: tx.RunID, Spec: o.spec, Loaded: ld, Options: resolved, Points: pts, Report: rep}
+	if err := estimate.SaveCurves(ctx, tx.Conn, cr); err != nil {
+		return nil, err
+	}
+	res := &curveResult{Split: o.spec.Split, Table: ld.Table, Label: o.spec.Label, Features: o.spec.Features,
+		Columns: ld.Columns, Model: co.Model, Metric: resolved.Metric, TrainSides: ld.TrainSides,
+		HoldoutSides: ld.HoldoutSides, TrainRows: ld.Train.N, HoldoutRows: ld.Holdout.N, Sizes: resolved.Sizes,
+		Repeats: co.Repeats, Seed: co.Seed, Notes: orEmptyStrings(ld.Notes), BestAt: rep.BestAt, Verdict: rep.Verdict,
+		Caution: rep.Caution, RunID: tx.RunID, report: rep, points: pts}
+	if rep.BestNStar != nil {
+		c := rep.BestCapacity
+		res.BestCapacity, res.BestNStar = &c, rep.BestNStar
+	}
+	res.Measured = summarisePoints(pts, rep.BestAt)
+	for _, c := range rep.Capacities {
+		cc := curveCapacity{Capacity: c.Capacity}
+		if r := c.Result; r != nil {
+			cc.Family, cc.Params, cc.BacktestErr = r.Best.Family, r.Best.Params, finite(r.Best.BacktestErr)
+			a := r.Asymptote
+			cc.Asymptote, cc.NStar, cc.AtErr, cc.Verdict = &a, r.NStar, r.AtErr, r.Verdict
+			if r.NStar != nil {
+				reach := r.Reachable
+				cc.Reachable = &reach
+			}
+			if r.Gap != nil {
+				v := r.Gap.VarianceLimited
+				cc.Variance = &v
+			}
+		} else {
+			cc.Verdict = "no curve could be fitted: " + c.Err
+		}
+		if c.Reached {
+			cc.ReachedAt = c.ReachedAt
+			cc.Verdict = fmt.Sprintf("The target is met by the measurements from n = %d on. %s", c.ReachedAt, cc.Verdict)
+		}
+		res.Capacities = append(res.Capacities, cc)
+	}
+	tx.SetDetail("split", o.spec.Split)
+	tx.SetDetail("model", co.Model)
+	tx.SetDetail("metric", resolved.Metric)
+	tx.SetDetail("capacities", co.Capacities)
+	tx.SetDetail("sizes", resolved.Sizes)
+	tx.SetDetail("repeats", co.Repeats)
+	tx.SetDetail("seed", co.Seed)
+	tx.SetDetail("target", o.extra.Target)
+	tx.SetDetail("at", o.extra.At)
+	tx.SetDetail("bootstrap", o.extra.Bootstrap)
+	if err := tx.AddAuditQuery(ctx, fmt.Sprintf("estimate_curve:%d", tx.RunID), "curve_means", "report",
+		"mean training and holdout error per capacity and size of this run's measured points",
+		fmt.Sprintf(`SELECT capacity, size, avg(train_err) AS train_err, avg(holdout_err) AS holdout_err, count(*) AS repeats FROM ss_est_curve_points WHERE run_id = %d GROUP BY capacity, size ORDER BY capacity, size`, tx.RunID), false); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+func orEmptyStrings(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}
+
+func metricOf(co estimate.CurveOptions) string {
+	if co.Metric != "" {
+		return co.Metric
+	}
+	if co.Model == "logistic" {
+		return "error"
+	}
+	return "mse"
+}
+
+func sizesOf(pts []estimate.CurvePoint) []int {
+	seen := map[int]bool{}
+	var out []int
+	for _, p := range pts {
+		if !seen[p.Size] {
+			seen[p.Size] = true
+			out = append(out, p.Size)
+		}
+	}
+	sortInts(out)
+	return out
+}
+
+func sortInts(a []int) {
+	for i := 1; i < len(a); i++ {
+		for j := i; j > 0 && a[j] < a[j-1]; j-- {
+			a[j], a[j-1] = a[j-1], a[j]
+		}
+	}
+}
+
+func summarisePoints(pts []estimate.CurvePoint, best []estimate.SizeBest) []curveMeasured {
+	var out []curveMeasured
+	for i := 0; i < len(pts); {
+		j := i
+		m := curveMeasured{Capacity: pts[i].Capacity, Size: pts[i].Size, HoldMin: math.Inf(1), HoldMax: math.Inf(-1)}
+		for j < len(pts) && pts[j].Capacity == m.Capacity && pts[j].Size == m.Size {
+			m.TrainMean += pts[j].TrainErr
+			m.HoldMean += pts[j].HoldoutErr
+			m.HoldMin = math.Min(m.HoldMin, pts[j].HoldoutErr)
+			m.HoldMax = math.Max(m.HoldMax, pts[j].HoldoutErr)
+			j++
+		}
+		k := float64(j - i)
+		m.Repeats = j - i
+		m.TrainMean /= k
+		m.HoldMean /= k
+		if j-i > 1 {
+			var ss float64
+			for _, p := range pts[i:j] {
+				ss += (p.HoldoutErr - m.HoldMean) * (p.HoldoutErr - m.HoldMean)
+			}
+			m.HoldSD = math.Sqrt(ss / (k - 1))
+			if m.HoldSD <= 1e-9*math.Abs(m.HoldMean) { // identical subsets (the whole side): rounding only
+				m.HoldSD = 0
+			}
+		}
+		for _, b := range best {
+			if b.Size == m.Size && b.Capacity == m.Capacity {
+				m.BestAtSize = true
+			}
+		}
+		out = append(out, m)
+		i = j
+	}
+	return out
+}
+
+// curveErr turns the estimate package's input errors into usage errors (exit 2).
+func curveErr(err error) error {
+	if errors.Is(err, estimate.ErrInput) {
+		return asUsage(err, curveHint)
+	}
+	return err
+}
+
+func runEstimateCurve(ctx context.Context, cc *cli.Context, o curveOptions, s stdio) error {
+	prog := newProgress(s.err, "estimate curve "+o.spec.Split)
+	var res *curveResult
+	err := update(ctx, cc, o.db, false, func(ctx context.Context, tx *store.Tx) error {
+		r, err := measureCurves(ctx, tx, o, prog)
+		if err != nil {
+			return err
+		}
+		res = r
+		if o.plot != "" {
+			if err := writeCurvePlot(o.plot, r); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	return printCurve(s.out, res, o.format)
+}
+
+// writeCurvePlot renders the curves to path atomically (temporary file, then rename).
+func writeCurvePlot(path string, r *curveResult) error {
+	title := fmt.Sprintf("%s on split %s: %s %s", r.Label, r.Split, r.Model, r.Metric)
+	pl, err := estimate.PlotCurves(r.points, r.report, estimate.PlotOptions{Title: title, YLabel: r.Metric})
+	if err != nil {
+		return fmt.Errorf("plot %s: %w", path, err)
+	}
+	ext := filepath.Ext(path)
+	tmp := filepath.Join(filepath.Dir(path), "."+strings.TrimSuffix(filepath.Base(path), ext)+".tmp"+ext)
+	if err := estimate.SavePlot(pl, tmp); err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("plot %s: %w", path, err)
+	}
+	if err := os.Rename(tmp, path); err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("plot %s: %w", path, err)
+	}
+	return nil
+}
+
+func g4(v float64) string {
+	if math.IsInf(v, 1) {
+		return "unbounded"
+	}
+	if math.IsNaN(v) {
+		return ""
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64)
+}
+
+func nstarCell(iv *estimate.Interval) string {
+	if iv == nil {
+		return ""
+	}
+	if math.IsInf(iv.Est, 1) {
+		return "unbounded"
+	}
+	return fmt.Sprintf("%s [%s, %s]", g4(math.Ceil(iv.Est)), g4(math.Ceil(iv.Lo)), g4(math.Ceil(iv.Hi)))
+}
+
+func ivCell(iv *estimate.Interval) string {
+	if iv == nil {
+		return ""
+	}
+	return fmt.Sprintf("%s [%s, %s]", g4(iv.Est), g4(iv.Lo), g4(iv.Hi))
+}
+
+func printCurve(w io.Writer, r *curveResult, format string) error {
+	if format == "json" {
+		return writeJSON(w, r)
+	}
+	lab := func(c float64) string { return estimate.CapacityLabel(r.Model, c) }
+	fmt.Fprintf(w, "estimate curve: split %s (table %s), label %s, features %s\n", r.Split, r.Table, r.Label, strings.Join(r.Features, ", "))
+	fmt.Fprintf(w, "model %s, metric %s, %d repeats, seed %d; training side %s: %d rows; holdout side %s: %d rows; %d encoded columns\n",
+		r.Model, r.Metric, r.Repeats, r.Seed, strings.Join(r.TrainSides, "+"), r.TrainRows, strings.Join(r.HoldoutSides, "+"), r.HoldoutRows, len(r.Columns))
+	for _, n := range r.Notes {
+		fmt.Fprintf(w, "  note: %s\n", n)
+	}
+	fmt.Fprintln(w)
+	t := &table{Header: []string{"capacity", "n", "train " + r.Metric, "holdout " + r.Metric, "holdout sd", "best"}}
+	for _, m := range r.Measured {
+		best := ""
+		if m.BestAtSize {
+			best = "*"
+		}
+		t.add(lab(m.Capacity), m.Size, g4(m.TrainMean), g4(m.HoldMean), g4(m.HoldSD), best)
+	}
+	if err := t.write(w, "table"); err != nil {
+		return err
+	}
+	fmt.Fprintln(w)
+	ft := &table{Header: []string{"capacity", "curve", "backtest err", "asymptote [interval]", "n* [interval]", "error at --at [interval]"}}
+	for _, c := range r.Capacities {
+		bt := ""
+		if c.BacktestErr != nil {
+			bt = fmt.Sprintf("%.1f%%", 100**c.BacktestErr)
+		}
+		fam := c.Family
+		if fam == "" {
+			fam = "(none)"
+		}
+		ft.add(lab(c.Capacity), fam, bt, ivCell(c.Asymptote), nstarCell(c.NStar), ivCell(c.AtErr))
+	}
+	if err := ft.write(w, "table"); err != nil {
+		return err
+	}
+	fmt.Fprintln(w)
+	for _, c := range r.Capacities {
+		fmt.Fprintf(w, "%s: %s\n", lab(c.Capacity), c.Verdict)
+	}
+	fmt.Fprintf(w, "\n%s\n", r.Verdict)
+	fmt.Fprintf(w, "stored: ss_est_curve_runs, ss_est_curve_points, ss_est_curve_fits (run %d)\n", r.RunID)
+	return nil
+}
+
+// demoEstimateStep is the demo's estimate step: capacity sweeps on split "sound" of table
+// "pipes" for wall loss (ridge, degrees 1–8) and for the repair label (logistic), with targets,
+// n* and plots in dir, and the planner's answer in plain sentences.
+func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
+	type sweep struct {
+		label, title string
+		args         []string
+		plot         string
+	}
+	sweeps := []sweep{
+		{"wall_loss_pct", "wall loss (%)", []string{"--label", "wall_loss_pct", "--features", "install_year,pressure_kpa,soil_moisture",
+			"--model", "ridge", "--capacity", "1,2,3,4,5,6,7,8", "--metric", "rmse", "--target", "2.4", "--bootstrap", "200"}, "estimate_wall_loss.svg"},
+		{"repaired_365d", "repair within 365 days", []string{"--label", "repaired_365d", "--features", "wall_loss_pct,prior_breaks",
+			"--model", "logistic", "--capacity", "1,2,3", "--metric", "logloss", "--target", "0.3", "--bootstrap", "200"}, "estimate_repair.svg"},
+	}
+	for _, sw := range sweeps {
+		var out, errb strings.Builder
+		args := append([]string{"estimate", "curve", "--db", db, "--split", "sound", "--format", "json", "--plot", filepath.Join(dir, sw.plot)}, sw.args...)
+		if err := runCLI(ctx, stdio{in: strings.NewReader(""), out: &out, err: &errb}, args...); err != nil {
+			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
+		}
+		var r struct {
+			Metric       string             `json:"metric"`
+			TrainRows    int                `json:"train_rows"`
+			BestCapacity *float64           `json:"best_capacity"`
+			BestNStar    *estimate.Interval `json:"best_nstar"`
+			BestAt       []estimate.SizeBest
+			Verdict      string `json:"verdict"`
+		}
+		if err := json.Unmarshal([]byte(out.String()), &r); err != nil {
+			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
+		}
+		fmt.Fprintf(w, "estimate, %s: %s\n", sw.title, planSentences(r.Metric, r.TrainRows, r.BestCapacity, r.BestNStar, sw.args))
+		fmt.Fprintf(w, "  plot: %s\n", filepath.Join(dir, sw.plot))
+	}
+	fmt.Fprintf(w, "  %s\n", estimate.Caution)
+	return nil
+}
+
+// planSentences is the demo's short answer for one sweep.
+func planSentences(metric string, trainRows int, bestCap *float64, nstar *estimate.Interval, args []string) string {
+	target, model := "", ""
+	for i := 0; i+1 < len(args); i++ {
+		switch args[i] {
+		case "--target":
+			target = args[i+1]
+		case "--model":
+			model = args[i+1]
+		}
+	}
+	if bestCap == nil || nstar == nil {
+		return fmt.Sprintf("no capacity tried reaches %s %s; more data will not get there, more capacity (or better features) might.", metric, target)
+	}
+	lab := estimate.CapacityLabel(model, *bestCap)
+	if nstar.Method == "measured" || nstar.Est <= float64(trainRows) {
+		return fmt.Sprintf("%s %s is within reach with the %d training rows in hand (%s, n* ≈ %s).", metric, target, trainRows, lab, g4(math.Ceil(nstar.Est)))
+	}
+	return fmt.Sprintf("%s %s needs about %s training rows with %s (%s interval %s to %s), against %d in hand.",
+		metric, target, g4(math.Ceil(nstar.Est)), lab, nstar.Method, g4(math.Ceil(nstar.Lo)), g4(math.Ceil(nstar.Hi)), trainRows)
+}

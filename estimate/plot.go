@@ -1,0 +1,245 @@
+package estimate
+
+// Learning-curve plots (gonum.org/v1/plot): holdout error (filled markers, with the range over
+// repeats as error bars) and training error (hollow markers) versus training size on log
+// axes, one colour per capacity; each capacity's fitted curve solid over the measured sizes and
+// dashed where it extrapolates; the asymptote's confidence interval as a shaded band; the
+// target as a grey horizontal line with each reachable n* marked and its interval drawn on it.
+
+import (
+	"fmt"
+	"image/color"
+	"math"
+	"path/filepath"
+	"sort"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/plotter"
+	"gonum.org/v1/plot/plotutil"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+)
+
+// PlotOptions label a curve plot.
+type PlotOptions struct {
+	Title  string
+	YLabel string // the metric
+}
+
+type errPoints struct {
+	plotter.XYs
+	lo, hi []float64
+}
+
+func (e errPoints) YError(i int) (float64, float64) { return e.lo[i], e.hi[i] }
+
+// PlotCurves draws the measured points and the report's fitted curves.
+func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Plot, error) {
+	p := plot.New()
+	p.Title.Text = po.Title
+	p.X.Label.Text = "training size n (log scale)"
+	p.Y.Label.Text = po.YLabel + " (log scale)"
+	p.X.Scale, p.Y.Scale = plot.LogScale{}, plot.LogScale{}
+	p.X.Tick.Marker, p.Y.Tick.Marker = plot.LogTicks{Prec: -1}, plot.LogTicks{Prec: -1}
+	p.Legend.Top = true
+	p.Legend.TextStyle.Font.Size = vg.Points(8)
+
+	byCap := map[float64][]CurvePoint{}
+	var caps []float64
+	for _, q := range points {
+		if _, ok := byCap[q.Capacity]; !ok {
+			caps = append(caps, q.Capacity)
+		}
+		byCap[q.Capacity] = append(byCap[q.Capacity], q)
+	}
+	sort.Float64s(caps)
+	if len(caps) == 0 {
+		return nil, fmt.Errorf("plot: no points")
+	}
+	nMin, nMax := math.Inf(1), 0.0
+	yMin, yMax := math.Inf(1), 0.0
+	for _, q := range points {
+		nMin, nMax = math.Min(nMin, float64(q.Size)), math.Max(nMax, float64(q.Size))
+		for _, v := range []float64{q.HoldoutErr, q.TrainErr} {
+			if v > 0 {
+				yMin, yMax = math.Min(yMin, v), math.Max(yMax, v)
+			}
+		}
+	}
+	// Extrapolate to 4× the largest size, or to the furthest finite n* / --at within 1000×.
+	xEnd := 4 * nMax
+	if rep != nil {
+		if rep.At > xEnd {
+			xEnd = rep.At
+		}
+		for _, c := range rep.Capacities {
+			if c.Result != nil && c.Result.NStar != nil && c.Result.Reachable && !math.IsInf(c.Result.NStar.Est, 0) {
+				xEnd = math.Max(xEnd, 1.2*c.Result.NStar.Est)
+			}
+		}
+		xEnd = math.Min(xEnd, 1000*nMax)
+	}
+	results := map[float64]CapacityResult{}
+	if rep != nil {
+		for _, c := range rep.Capacities {
+			results[c.Capacity] = c
+		}
+	}
+	model := ""
+	if rep != nil {
+		model = rep.Model
+	}
+	bandShown := false
+	for i, c := range caps {
+		col := plotutil.Color(i)
+		pts := byCap[c]
+		sizes := map[int][]CurvePoint{}
+		var ns []int
+		for _, q := range pts {
+			if _, ok := sizes[q.Size]; !ok {
+				ns = append(ns, q.Size)
+			}
+			sizes[q.Size] = append(sizes[q.Size], q)
+		}
+		sort.Ints(ns)
+		var hold errPoints
+		var train plotter.XYs
+		for _, n := range ns {
+			var sh, st float64
+			lo, hi := math.Inf(1), math.Inf(-1)
+			for _, q := range sizes[n] {
+				sh += q.HoldoutErr
+				st += q.TrainErr
+				lo, hi = math.Min(lo, q.HoldoutErr), math.Max(hi, q.HoldoutErr)
+			}
+			k := float64(len(sizes[n]))
+			if m := sh / k; m > 0 {
+				hold.XYs = append(hold.XYs, plotter.XY{X: float64(n), Y: m})
+				hold.lo = append(hold.lo, m-math.Max(lo, m*1e-3))
+				hold.hi = append(hold.hi, hi-m)
+			}
+			if m := st / k; m > 0 {
+				train = append(train, plotter.XY{X: float64(n), Y: m})
+			}
+		}
+		name := CapacityLabel(model, c)
+		if len(hold.XYs) > 0 {
+			sc, err := plotter.NewScatter(hold.XYs)
+			if err != nil {
+				return nil, err
+			}
+			sc.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.5), Shape: draw.CircleGlyph{}}
+			eb, err := plotter.NewYErrorBars(hold)
+			if err != nil {
+				return nil, err
+			}
+			eb.LineStyle.Color = col
+			p.Add(sc, eb)
+			p.Legend.Add(name+" holdout", sc)
+		}
+		if len(train) > 0 {
+			sc, err := plotter.NewScatter(train)
+			if err != nil {
+				return nil, err
+			}
+			sc.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.5), Shape: draw.RingGlyph{}}
+			p.Add(sc)
+			p.Legend.Add(name+" training", sc)
+		}
+		cr, ok := results[c]
+		if !ok || cr.Result == nil {
+			continue
+		}
+		f := cr.Result.Best
+		curve := func(a, b float64) plotter.XYs {
+			var xy plotter.XYs
+			for j := 0; j <= 60; j++ {
+				x := a * math.Pow(b/a, float64(j)/60)
+				if y := Predict(f, x); y > 0 && !math.IsNaN(y) {
+					xy = append(xy, plotter.XY{X: x, Y: y})
+				}
+			}
+			return xy
+		}
+		if xy := curve(nMin, nMax); len(xy) > 1 {
+			l, err := plotter.NewLine(xy)
+			if err != nil {
+				return nil, err
+			}
+			l.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1.2)}
+			p.Add(l)
+		}
+		if xy := curve(nMax, xEnd); len(xy) > 1 {
+			l, err := plotter.NewLine(xy)
+			if err != nil {
+				return nil, err
+			}
+			l.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(3)}}
+			p.Add(l)
+			yMin = math.Min(yMin, xy[len(xy)-1].Y)
+		}
+		as := cr.Result.Asymptote
+		if as.Method != "none" && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
+			lo := math.Max(as.Lo, yMin/2)
+			if lo < as.Hi {
+				band, err := plotter.NewPolygon(plotter.XYs{{X: nMin, Y: lo}, {X: xEnd, Y: lo}, {X: xEnd, Y: as.Hi}, {X: nMin, Y: as.Hi}})
+				if err != nil {
+					return nil, err
+				}
+				r, g, b, _ := col.RGBA()
+				band.Color = color.NRGBA{R: uint8(r >> 8), G: uint8(g >> 8), B: uint8(b >> 8), A: 40}
+				band.LineStyle.Width = 0
+				p.Add(band)
+				if !bandShown {
+					p.Legend.Add("asymptote interval (shaded)", band)
+					bandShown = true
+				}
+				yMin = math.Min(yMin, lo)
+			}
+		}
+		if ns := cr.Result.NStar; ns != nil && cr.Result.Reachable && !math.IsInf(ns.Est, 0) && rep.Target > 0 {
+			mk, err := plotter.NewScatter(plotter.XYs{{X: ns.Est, Y: rep.Target}})
+			if err != nil {
+				return nil, err
+			}
+			mk.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(4), Shape: draw.CrossGlyph{}}
+			p.Add(mk)
+			if ns.Lo > 0 && !math.IsInf(ns.Hi, 0) {
+				seg, err := plotter.NewLine(plotter.XYs{{X: math.Max(ns.Lo, nMin), Y: rep.Target}, {X: math.Min(ns.Hi, xEnd), Y: rep.Target}})
+				if err != nil {
+					return nil, err
+				}
+				seg.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(3)}
+				p.Add(seg)
+			}
+			p.Legend.Add(fmt.Sprintf("%s n* ≈ %.0f", name, math.Ceil(ns.Est)), mk)
+		}
+	}
+	if rep != nil && rep.Target > 0 {
+		l, err := plotter.NewLine(plotter.XYs{{X: nMin, Y: rep.Target}, {X: xEnd, Y: rep.Target}})
+		if err != nil {
+			return nil, err
+		}
+		l.LineStyle = draw.LineStyle{Color: color.Gray{Y: 90}, Width: vg.Points(1), Dashes: []vg.Length{vg.Points(1), vg.Points(2)}}
+		p.Add(l)
+		p.Legend.Add(fmt.Sprintf("target %g", rep.Target), l)
+		yMin, yMax = math.Min(yMin, rep.Target), math.Max(yMax, rep.Target)
+	}
+	if yMin > 0 && yMax > 0 {
+		p.Y.Min, p.Y.Max = yMin/1.3, yMax*1.3
+	}
+	p.X.Min, p.X.Max = nMin/1.3, xEnd*1.1
+	p.Add(plotter.NewGrid())
+	return p, nil
+}
+
+// SavePlot writes the plot to path as SVG or PNG (by the extension), 8 × 5.5 inches.
+func SavePlot(p *plot.Plot, path string) error {
+	switch strings.ToLower(filepath.Ext(path)) {
+	case ".svg", ".png":
+	default:
+		return fmt.Errorf("plot %s: the file name must end in .svg or .png", path)
+	}
+	return p.Save(8*vg.Inch, 5.5*vg.Inch, path)
+}

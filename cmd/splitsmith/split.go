@@ -179,9 +179,13 @@ func specFromFlags(cc *cli.Context) (*splits.Spec, error) {
 }
 
 // splitErr maps the splits package's errors onto exit codes: spec mistakes are usage errors.
-func splitErr(err error, hint string) error {
+// file names the spec file the spec came from, if any, so the error locates the field in it.
+func splitErr(err error, hint string, file ...string) error {
 	var fe *splits.FieldError
 	if errors.As(err, &fe) {
+		if fe.File == "" && len(file) > 0 && file[0] != "" {
+			fe.File = file[0]
+		}
 		return asUsage(err, hint)
 	}
 	return err
@@ -201,7 +205,7 @@ func runSplit(ctx context.Context, cc *cli.Context, o splitOptions, s stdio) err
 		r, err := splits.Split(ctx, tx.Conn, o.spec, splits.Options{RunID: tx.RunID, Replace: o.replace, Progress: prog.Report})
 		prog.Done()
 		if err != nil {
-			return splitErr(err, splitHint)
+			return splitErr(err, splitHint, o.specFile)
 		}
 		res = r
 		subject := "split:" + o.spec.Name

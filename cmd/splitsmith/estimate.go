@@ -285,9 +285,9 @@ func runEstimatePoints(ctx context.Context, cc *cli.Context, o pointsOptions, s 
 				if f.Family != "pow3" {
 					continue
 				}
-				q := fmt.Sprintf(`WITH r AS (SELECT est_fit_pow3(n, err ORDER BY line) AS j FROM ss_est_points WHERE run_id = %d AND subject = %s AND kind = 'holdout')
-SELECT f.params_json, r.j FROM ss_est_fits f, r WHERE f.run_id = %d AND f.subject = %s AND f.family = 'pow3'
- AND (json_extract(f.params_json, '$.a') IS NOT json_extract(r.j, '$.a') OR json_extract(f.params_json, '$.b') IS NOT json_extract(r.j, '$.b') OR json_extract(f.params_json, '$.c') IS NOT json_extract(r.j, '$.c'))`,
+				q := fmt.Sprintf(`WITH r AS (SELECT est_fit_pow3(n, err ORDER BY line) AS j FROM ss_est_points WHERE run_id = %d AND subject = %s AND kind = 'holdout') `+
+					`SELECT f.params_json, r.j FROM ss_est_fits f, r WHERE f.run_id = %d AND f.subject = %s AND f.family = 'pow3' `+
+					`AND (json_extract(f.params_json, '$.a') IS NOT json_extract(r.j, '$.a') OR json_extract(f.params_json, '$.b') IS NOT json_extract(r.j, '$.b') OR json_extract(f.params_json, '$.c') IS NOT json_extract(r.j, '$.c'))`,
 					tx.RunID, store.QuoteString(subject), tx.RunID, store.QuoteString(subject))
 				if err := tx.AddAuditQuery(ctx, subject, "pow3_fit", "check",
 					"the stored pow3 fit, recomputed from the stored points with est_fit_pow3; empty when they agree", q, true); err != nil {
@@ -359,7 +359,13 @@ func ptsG4(v float64) string {
 }
 
 func printPoints(w io.Writer, npts int, res *estimate.Result, o *estimate.Options) error {
-	fmt.Fprintf(w, "%d points at %d sizes (%g to %g); weighted least squares per family:\n\n", npts, len(res.Sizes), res.Sizes[0], res.Sizes[len(res.Sizes)-1])
+	how := "weighted least squares (weights from the spread across repeats)"
+	for _, r := range res.Repeats {
+		if r < 2 {
+			how = "least squares, unweighted (a single measurement at some sizes)"
+		}
+	}
+	fmt.Fprintf(w, "%d points at %d sizes (%g to %g); %s per family:\n\n", npts, len(res.Sizes), res.Sizes[0], res.Sizes[len(res.Sizes)-1], how)
 	t := &table{Header: []string{"family", "parameters (± s.e.)", "aic", "backtest", "chosen"}}
 	for _, f := range res.Fits {
 		fam, _ := estimate.FamilyByName(f.Family)

@@ -671,6 +671,10 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 		string(opts), rep.Count(Error), rep.Count(Warn), rep.Count(Info), a.auditID); err != nil {
 		return err
 	}
+	// The latest audit of a split owns its queries: earlier ones' are replaced.
+	if _, err := a.conn.ExecContext(a.ctx, `DELETE FROM ss_audit_queries WHERE subject = ?`, "audit:"+a.split); err != nil {
+		return err
+	}
 	for _, q := range rep.Queries {
 		if err := qa.AddAuditQuery(a.ctx, "audit:"+a.split, q.Name, q.Kind, q.Description, q.SQL, q.NeedsTool); err != nil {
 			return fmt.Errorf("store query %s: %w", q.Name, err)

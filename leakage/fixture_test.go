@@ -127,21 +127,34 @@ func replay(t testing.TB, path, split string) map[string]int {
 		t.Fatal(err)
 	}
 	defer db.Close()
-	rows, err := db.Query(`SELECT name, sql FROM ss_audit_queries WHERE subject = ? AND kind = 'check' ORDER BY name`, "audit:"+split)
+	// Stock SQL: queries that need no tool function run on a connection without any.
+	stock, err := store.Open(context.Background(), path, store.Options{ReadOnly: true})
 	if err != nil {
 		t.Fatal(err)
 	}
-	type q struct{ name, sql string }
+	defer stock.Close()
+	rows, err := db.Query(`SELECT name, sql, needs_tool FROM ss_audit_queries WHERE subject = ? AND kind = 'check' ORDER BY name`, "audit:"+split)
+	if err != nil {
+		t.Fatal(err)
+	}
+	type q struct {
+		name, sql string
+		tool      bool
+	}
 	var qs []q
 	for rows.Next() {
 		var x q
-		rows.Scan(&x.name, &x.sql)
+		rows.Scan(&x.name, &x.sql, &x.tool)
 		qs = append(qs, x)
 	}
 	rows.Close()
 	out := map[string]int{}
 	for _, x := range qs {
-		r, err := db.Query(x.sql)
+		conn := stock
+		if x.tool {
+			conn = db
+		}
+		r, err := conn.Query(x.sql)
 		if err != nil {
 			t.Fatalf("query %s: %v\n%s", x.name, err, x.sql)
 		}

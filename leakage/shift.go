@@ -77,6 +77,10 @@ func runDistributionShift(a *audit) error {
 	if a.label != "" {
 		cols = append(cols, a.label)
 	}
+	isText := map[string]bool{}
+	for _, t := range a.text {
+		isText[t] = true
+	}
 	isTrain := func(i int) bool { return a.sides[a.side[i]].Role == "train" }
 	trainName := ""
 	for _, s := range a.sides {
@@ -112,12 +116,19 @@ func runDistributionShift(a *audit) error {
 			st := shiftStat{Column: subject}
 			var sev Severity
 			var msg string
-			if c.numeric() {
+			isTime := c.Logical == "DATE" || c.Logical == "TIMESTAMP"
+			if c.numeric() || isTime {
 				var ref, act, refOK, actOK []float64
 				for i := range a.rowID {
-					v := c.num[i]
-					if c.null[i] {
-						v = math.NaN()
+					v := math.NaN()
+					if !c.null[i] {
+						if isTime {
+							if tm, ok := parseTime(c.str[i]); ok {
+								v = float64(tm.UnixNano()) / 1e9
+							}
+						} else {
+							v = c.num[i]
+						}
 					}
 					if isTrain(i) {
 						ref = append(ref, v)
@@ -154,8 +165,8 @@ func runDistributionShift(a *audit) error {
 					}
 				}
 				levels, e, o := CategoricalCounts(ref, act, rn, an)
-				if len(levels) > maxLevels {
-					continue
+				if len(levels) > maxLevels || (col != a.label && len(levels) > (nT+nH)/2) || isText[col] {
+					continue // identifier-like or free text: not a distribution of levels
 				}
 				st.Kind, st.Levels = "categorical", len(levels)
 				st.PSI = PSI(e, o)
@@ -182,12 +193,16 @@ func runDistributionShift(a *audit) error {
 				continue
 			}
 			q := a.queryName(hside.Name + "." + col)
+			psiExpr := "t." + quoteIdent(col)
+			if isTime {
+				psiExpr = "julianday(" + psiExpr + ")"
+			}
 			a.add(Finding{Severity: sev, Subject: subject, SideA: trainName, NA: nT, SideB: hside.Name, NB: nH, Score: st.PSI, Query: q, Evidence: map[string]any{"statistics": st},
 				Message: fmt.Sprintf("%s on %s differs from training: PSI %.3f%s", subject, hside.Name, st.PSI, msg)})
 			a.addQuery(Query{Name: q, Kind: "check", NeedsTool: true,
 				Description: fmt.Sprintf("recomputes the PSI of %s, training rows against %s; no rows = it matches the stored score", col, hside.Name),
-				SQL: fmt.Sprintf("WITH %s,\nr AS (SELECT leak_psi(t.%s, k.role = 'train') AS recomputed FROM k JOIN %s t ON t.ss_row = k.row_id WHERE k.role = 'train' OR k.side = %s)\nSELECT recomputed, (SELECT score FROM ss_findings WHERE audit_id = %d AND check_name = 'distribution_shift' AND subject = %s AND side_b = %s) AS stored FROM r WHERE abs(recomputed - stored) > 1e-9 OR stored IS NULL",
-					a.baseCTE(), quoteIdent(col), quoteIdent(a.table), quoteString(hside.Name), a.auditID, quoteString(subject), quoteString(hside.Name))})
+				SQL: fmt.Sprintf("WITH %s,\nr AS (SELECT leak_psi(%s, k.role = 'train') AS recomputed FROM k JOIN %s t ON t.ss_row = k.row_id WHERE k.role = 'train' OR k.side = %s)\nSELECT recomputed, (SELECT score FROM ss_findings WHERE audit_id = %d AND check_name = 'distribution_shift' AND subject = %s AND side_b = %s) AS stored FROM r WHERE abs(recomputed - stored) > 1e-9 OR stored IS NULL",
+					a.baseCTE(), psiExpr, quoteIdent(a.table), quoteString(hside.Name), a.auditID, quoteString(subject), quoteString(hside.Name))})
 		}
 		worst := 0.0
 		for _, s := range stats {

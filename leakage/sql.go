@@ -117,7 +117,7 @@ func SQL() sqlfn.Set {
 			NewAgg:   func() sqlfn.Agg { return &aucAgg{} }},
 		{Name: "leak_psi", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: population stability index of the rows where reference is false against those where it is true (deciles of the reference, or levels for text; null a bin of its own)",
-			Examples: []sqlfn.Example{{SQL: `SELECT round(leak_psi(x, r), 6) FROM (SELECT 'a' AS x, 1 AS r UNION ALL SELECT 'b', 1 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'b', 0)`, Want: "0.143841"}},
+			Examples: []sqlfn.Example{{SQL: `SELECT round(leak_psi(x, r), 6) FROM (SELECT 'a' AS x, 1 AS r UNION ALL SELECT 'b', 1 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'a', 0 UNION ALL SELECT 'b', 0)`, Want: "0.274653"}},
 			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{psi: true} }},
 		{Name: "leak_ks", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: two-sample kolmogorov-smirnov statistic d between the rows where reference is true and the others (nulls skipped)",
@@ -125,7 +125,7 @@ func SQL() sqlfn.Set {
 			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{} }},
 		{Name: "leak_ks_p", NArgs: 2, Deterministic: true, Args: "x, reference",
 			Doc:      "aggregate: two-sided p-value of leak_ks (exact for n1*n2 <= 10000, else asymptotic)",
-			Examples: []sqlfn.Example{{SQL: `SELECT leak_ks_p(x, r) FROM (SELECT 0.99 AS x, 1 AS r UNION ALL SELECT 1.99, 1 UNION ALL SELECT 1, 0 UNION ALL SELECT 2, 0 UNION ALL SELECT 3, 0)`, Want: "0.6"}},
+			Examples: []sqlfn.Example{{SQL: `SELECT round(leak_ks_p(x, r), 12) FROM (SELECT 0.99 AS x, 1 AS r UNION ALL SELECT 1.99, 1 UNION ALL SELECT 1, 0 UNION ALL SELECT 2, 0 UNION ALL SELECT 3, 0)`, Want: "0.6"}},
 			NewAgg:   func() sqlfn.Agg { return &twoSampleAgg{p: true} }},
 	}}
 }

@@ -259,11 +259,11 @@ func roundF(p *float64) any {
 
 // printSplit renders a split's summary (split and splits --show share it).
 func printSplit(w io.Writer, r *splits.Result) {
-	desc := r.Strategy
+	folds := ""
 	if r.FoldScheme != "" {
-		desc += fmt.Sprintf(", %d %s folds", len(r.Folds), r.FoldScheme)
+		folds = fmt.Sprintf(", %d folds (%s)", len(r.Folds), r.FoldScheme)
 	}
-	fmt.Fprintf(w, "split %s: %s split of table %s, seed %d\n", r.Spec.Name, desc, r.Spec.Table, r.Spec.Seed)
+	fmt.Fprintf(w, "split %s: %s split of table %s, seed %d%s\n", r.Spec.Name, r.Strategy, r.Spec.Table, r.Spec.Seed, folds)
 	fmt.Fprintf(w, "rows: %d in the table, %d on a side, %d dropped", r.TableRows, r.Assigned, r.TableRows-r.Assigned)
 	if len(r.Dropped) > 0 {
 		var parts []string

@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"path/filepath"
 	"strconv"
 	"strings"
 
@@ -122,7 +123,9 @@ Examples:
 				return usagef(pointsHint, "--holdout: %d must be positive", o.holdout)
 			}
 			if o.plot != "" {
-				return usagef(pointsHint, "--plot is not available for estimate points yet (use estimate curve --plot)")
+				if ext := strings.ToLower(filepath.Ext(o.plot)); ext != ".svg" && ext != ".png" {
+					return usagef(pointsHint, "--plot: %q must end in .svg or .png", o.plot)
+				}
 			}
 			return runEstimatePoints(cc.Context, cc, o, s)
 		},
@@ -298,6 +301,19 @@ func runEstimatePoints(ctx context.Context, cc *cli.Context, o pointsOptions, s 
 		})
 		if err != nil {
 			return err
+		}
+	}
+	if o.plot != "" {
+		var tr []estimate.Point
+		for _, p := range train {
+			tr = append(tr, p.Point)
+		}
+		pl, err := estimate.PlotPoints(pts, tr, res, o.target, o.at, "learning curve: "+filepath.Base(o.points))
+		if err == nil {
+			err = estimate.SavePlot(pl, o.plot)
+		}
+		if err != nil {
+			return fmt.Errorf("plot %s: %w", o.plot, err)
 		}
 	}
 	if o.format == "json" {

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"runtime"
 	"sort"
 	"strconv"
 	"strings"
@@ -93,6 +94,9 @@ type column struct {
 	ints []int64   // INTEGER storage, exact
 	str  []string  // TEXT storage
 	null []bool
+	// rounded[d] holds SQLite's own printf('%.{d-1}e', x) of each value (numeric columns), so
+	// that stored stock-SQL queries group exactly as the audit did.
+	rounded map[int][]string
 }
 
 func (c *column) numeric() bool { return c.SQLType == "INTEGER" || c.SQLType == "REAL" }
@@ -123,6 +127,8 @@ type audit struct {
 	auditID   int64
 	skipped   []Skip
 	workers   int
+	// significant digits to load rounded forms for: REAL columns, and all numeric columns
+	roundReal, roundAll []int
 }
 
 func (a *audit) p(name string) float64 {
@@ -144,6 +150,9 @@ func (a *audit) progress(label string) (func(done, total int64), func()) {
 // (subject "audit:<split>"). Bad options give an *InputError before anything is written.
 func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts Options) (*Report, error) {
 	a := &audit{ctx: ctx, conn: conn, opts: opts, split: opts.Split, workers: opts.Workers}
+	if a.workers <= 0 {
+		a.workers = runtime.GOMAXPROCS(0)
+	}
 	checks, err := ParseChecks(opts.Checks)
 	if err != nil {
 		return nil, err
@@ -170,6 +179,17 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			continue
 		}
 		run = append(run, c)
+	}
+	for _, c := range run {
+		switch c {
+		case ExactDuplicate, LabelConflict, NearDuplicateNumeric:
+			a.check = ExactDuplicate
+			a.roundReal = append(a.roundReal, int(a.p("digits")))
+		}
+		if c == NearDuplicateNumeric {
+			a.check = c
+			a.roundAll = append(a.roundAll, int(a.p("digits")))
+		}
 	}
 	if err := a.loadRows(); err != nil {
 		return nil, err
@@ -431,6 +451,34 @@ func (a *audit) loadRows() error {
 		cols[i] = &column{colInfo: c}
 		a.data[c.Name] = cols[i]
 	}
+	type rnd struct {
+		col *column
+		d   int
+	}
+	var rounds []rnd
+	for _, c := range cols {
+		var ds []int
+		switch c.SQLType {
+		case "REAL":
+			ds = append(append(ds, a.roundReal...), a.roundAll...)
+		case "INTEGER":
+			ds = append(ds, a.roundAll...)
+		}
+		for _, d := range ds {
+			if d < 1 || d > 30 {
+				return inputf("--param digits=%d: significant digits must be 1..30", d)
+			}
+			if c.rounded == nil {
+				c.rounded = map[int][]string{}
+			}
+			if _, ok := c.rounded[d]; ok {
+				continue
+			}
+			c.rounded[d] = nil
+			rounds = append(rounds, rnd{c, d})
+			fmt.Fprintf(&sel, ", %s", RoundSignificantSQL("t."+quoteIdent(c.Name), d))
+		}
+	}
 	fmt.Fprintf(&sel, ` FROM ss_split_rows r JOIN %s t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side <> '' ORDER BY r.row_id`, quoteIdent(a.table))
 	rows, err := a.conn.QueryContext(a.ctx, sel.String(), a.split)
 	if err != nil {
@@ -439,7 +487,7 @@ func (a *audit) loadRows() error {
 	defer rows.Close()
 	report, end := a.progress("audit: reading rows")
 	defer end()
-	vals := make([]any, len(a.cols)+2)
+	vals := make([]any, len(a.cols)+2+len(rounds))
 	ptrs := make([]any, len(vals))
 	for i := range vals {
 		ptrs[i] = &vals[i]
@@ -458,6 +506,9 @@ func (a *audit) loadRows() error {
 		a.side = append(a.side, si)
 		for i, c := range cols {
 			c.add(vals[i+2])
+		}
+		for k, r := range rounds {
+			r.col.rounded[r.d] = append(r.col.rounded[r.d], asString(vals[len(cols)+2+k]))
 		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)

@@ -45,16 +45,10 @@ func asciiLower(s string) string {
 	return s
 }
 
-// RoundSignificant renders x rounded to digits significant digits in the form SQLite's
-// printf('%.{digits-1}e', x) gives (e.g. 3 digits: 1234.5 -> "1.23e+03").
-func RoundSignificant(x float64, digits int) string {
-	if digits < 1 {
-		digits = 1
-	}
-	return strconv.FormatFloat(x, 'e', digits-1, 64)
-}
-
-// RoundSignificantSQL is RoundSignificant as a stock SQLite expression.
+// RoundSignificantSQL rounds a number to digits significant digits as text with SQLite's
+// own printf('%.{digits-1}e', x) (e.g. 3 digits: 1234.5 -> '1.23e+03'). The audit has SQLite
+// compute these while it reads the rows, so stored queries group exactly as it did: SQLite
+// rounds some exact halves differently from Go's strconv (measured in a test).
 func RoundSignificantSQL(expr string, digits int) string {
 	if digits < 1 {
 		digits = 1
@@ -126,9 +120,9 @@ func (a *audit) keys(k keySpec) []uint64 {
 				case c.SQLType == "INTEGER" && k.intDig == 0:
 					s = strconv.FormatInt(c.ints[i], 10)
 				case c.SQLType == "INTEGER":
-					s = RoundSignificant(float64(c.ints[i]), k.intDig)
+					s = c.rounded[k.intDig][i]
 				default:
-					s = RoundSignificant(c.num[i], k.realDig)
+					s = c.rounded[k.realDig][i]
 				}
 				buf = append(buf, 'v')
 				buf = strconv.AppendInt(buf, int64(utf8.RuneCountInString(s)), 10)

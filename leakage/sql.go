@@ -24,26 +24,6 @@ func SQL() sqlfn.Set {
 				}
 				return NormalizeValue(s), nil
 			}},
-		{Name: "leak_round", NArgs: 2, Deterministic: true, Args: "x, digits",
-			Doc:      "x rounded to digits significant digits, as text (the same as printf('%.{digits-1}e', x))",
-			Examples: []sqlfn.Example{{SQL: `SELECT leak_round(1234.5678, 3)`, Want: "1.23e+03"}},
-			Scalar: func(args []driver.Value) (driver.Value, error) {
-				if sqlfn.IsNull(args, 0) {
-					return nil, nil
-				}
-				x, err := sqlfn.Float(args, 0, "x")
-				if err != nil {
-					return nil, err
-				}
-				d, err := sqlfn.Int(args, 1, "digits")
-				if err != nil {
-					return nil, err
-				}
-				if d < 1 || d > 30 {
-					return nil, fmt.Errorf("argument 2 (digits) must be 1..30, got %d", d)
-				}
-				return RoundSignificant(x, int(d)), nil
-			}},
 		jaccardFunc("leak_jaccard", false, "exact jaccard similarity of two texts' character k-shingle sets (after lower-casing, punctuation to spaces)",
 			`SELECT leak_jaccard('abcdabd', 'abcdab', 2)`, "0.8"),
 		jaccardFunc("leak_jaccard_words", true, "exact jaccard similarity of two texts' word k-shingle sets",

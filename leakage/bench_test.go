@@ -1,0 +1,87 @@
+package leakage
+
+import (
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"sync"
+	"testing"
+
+	"splitsmith/internal/store"
+)
+
+var (
+	bigOnce sync.Once
+	bigPath string
+)
+
+// bigFixture is a 1,000,000-row table of 9 user columns (invented pipe-inspection-like
+// values; 1% of rows planted as copies of earlier rows) split 80/20 at random, built once.
+func bigFixture(b *testing.B) string {
+	bigOnce.Do(func() {
+		r := rand.New(rand.NewPCG(1, 1))
+		f := &fixture{table: "big", split: "s", roles: map[string]string{"train": "train", "holdout": "holdout"}, order: []string{"train", "holdout"}, groups: []string{"segment"},
+			cols: []fixCol{{"segment", "TEXT", "TEXT"}, {"d1", "REAL", "REAL"}, {"d2", "REAL", "REAL"}, {"d3", "REAL", "REAL"}, {"d4", "REAL", "REAL"},
+				{"i1", "INTEGER", "INTEGER"}, {"i2", "INTEGER", "INTEGER"}, {"material", "TEXT", "TEXT"}, {"code", "TEXT", "TEXT"}}}
+		mats := []string{"cast iron", "PVC", "ductile", "steel", "asbestos cement"}
+		const n = 1_000_000
+		for i := 0; i < n; i++ {
+			var row []any
+			if i > 1000 && r.IntN(100) == 0 {
+				row = f.rows[r.IntN(i)]
+			} else {
+				row = []any{fmt.Sprintf("S%06d", r.IntN(200000)), r.Float64() * 300, r.NormFloat64(), r.ExpFloat64(), float64(r.IntN(1000)) / 10,
+					int64(r.IntN(100)), int64(1950 + r.IntN(70)), mats[r.IntN(len(mats))], fmt.Sprintf("C-%05d", r.IntN(50000))}
+			}
+			f.rows = append(f.rows, row)
+			side := "train"
+			if r.IntN(5) == 0 {
+				side = "holdout"
+			}
+			f.sides = append(f.sides, side)
+		}
+		bigPath = f.create(b)
+	})
+	return bigPath
+}
+
+func benchAudit(b *testing.B, checks ...string) {
+	if !benchSelected("1M") {
+		b.Skip("builds a 1,000,000-row database: run with -bench 1M")
+	}
+	path := bigFixture(b)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := runAudit(b, path, Options{Split: "s", Checks: checks}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkAudit_ExactDuplicate1M: exact duplicates across sides over 1,000,000 rows
+// (target < 1.5 s): read, normalise, hash 9 columns, group, store findings and queries.
+func BenchmarkAudit_ExactDuplicate1M(b *testing.B) { benchAudit(b, "exact_duplicate") }
+
+// BenchmarkAudit_SharedEntity1M: shared entities over 1,000,000 rows (target < 1.5 s).
+func BenchmarkAudit_SharedEntity1M(b *testing.B) { benchAudit(b, "shared_entity") }
+
+// BenchmarkBaseline_GroupDigest1M is the baseline the targets are set against: SQLite
+// grouping the 1,000,000 stored ss_digest values of the split's rows by side, no index.
+func BenchmarkBaseline_GroupDigest1M(b *testing.B) {
+	if !benchSelected("1M") {
+		b.Skip("run with -bench 1M")
+	}
+	path := bigFixture(b)
+	db, err := store.Open(context.Background(), path, store.Options{ReadOnly: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer db.Close()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		var n int
+		if err := db.QueryRow(`SELECT count(*) FROM (SELECT t.ss_digest FROM ss_split_rows r JOIN big t ON t.ss_row = r.row_id WHERE r.split_name = 's' GROUP BY t.ss_digest HAVING count(DISTINCT r.side) > 1)`).Scan(&n); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

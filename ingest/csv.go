@@ -51,6 +51,7 @@ type csvReader struct {
 	r0         record
 	fields     [][]byte
 	bomChecked bool
+	noQuote    bool // the current record's first line has no quote character
 }
 
 type span struct {
@@ -191,7 +192,7 @@ func (c *csvReader) next() (bool, error) {
 			}
 		}
 		r.fields = c.fields
-		if r.problem == "" {
+		if r.problem == "" && !utf8.Valid(r.raw) {
 			for i, f := range r.fields {
 				if !utf8.Valid(f) {
 					r.problem = fmt.Sprintf("invalid UTF-8 at byte %d", invalidAt(f)+1)
@@ -234,6 +235,8 @@ func (c *csvReader) parse(p int) (int, error) {
 		}
 	}
 	findLineEnd(p)
+	// Most records hold no quote at all: then no field needs the bare-quote check.
+	c.noQuote = c.quoted && bytes.IndexByte(buf[p:lineEnd], '"') < 0
 	for {
 		if c.quoted && p < len(buf) && buf[p] == '"' {
 			// Quoted field (RFC 4180 §2.5–2.7).
@@ -321,7 +324,7 @@ func (c *csvReader) parse(p int) (int, error) {
 }
 
 func (c *csvReader) addUnquoted(a, b int) {
-	if c.quoted && c.r0.problem == "" {
+	if c.quoted && !c.noQuote && c.r0.problem == "" {
 		if j := bytes.IndexByte(c.buf[a:b], '"'); j >= 0 {
 			c.r0.problem = fmt.Sprintf("bad quoting: quote inside unquoted field %d", len(c.spans)+1)
 			c.r0.column = len(c.spans) + 1

@@ -103,7 +103,7 @@ func TestCSV_LineNumbers(t *testing.T) {
 func TestCSV_BadQuoting(t *testing.T) {
 	tests := []struct {
 		name, in, problem string
-		line             int64
+		line              int64
 	}{
 		{"quote in unquoted field", "a,b\n1,x\"y\n", "bad quoting: quote inside unquoted field 2", 2},
 		{"text after closing quote", "a,b\n\"x\"y,2\n", `bad quoting: unexpected 'y' after the closing quote of field 1`, 2},

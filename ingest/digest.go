@@ -56,6 +56,9 @@ func (d *Digester) Real(v float64) {
 	d.put(tagReal, d.buf)
 }
 
+// realText adds a REAL value given as its canonical text (see realTextCanonical).
+func (d *Digester) realText(b []byte) { d.put(tagReal, b) }
+
 // Text adds a TEXT value.
 func (d *Digester) Text(s string) {
 	var hdr [5]byte

@@ -449,6 +449,55 @@ func looksLeadingZero(s string) bool {
 	return true
 }
 
+// realTextCanonical reports whether b, a decimal that parses as a float64, is already the text
+// strconv.FormatFloat(x, 'g', -1, 64) gives for it, so the digest can hash b without
+// formatting x: at most 15 significant digits (DBL_DIG, so the shortest round-trip form has
+// the same digits), no leading zeros, a digit before any point, no trailing fraction zeros,
+// no exponent, and a decimal exponent in [-4, 5] (where 'g' uses plain notation).
+func realTextCanonical(b []byte) bool {
+	i := 0
+	if len(b) > 0 && b[0] == '-' {
+		i = 1
+	}
+	s := i
+	for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+		i++
+	}
+	nInt := i - s
+	if nInt == 0 || (nInt > 1 && b[s] == '0') {
+		return false
+	}
+	nFrac := 0
+	if i < len(b) {
+		if b[i] != '.' {
+			return false
+		}
+		i++
+		fs := i
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i++
+		}
+		nFrac = i - fs
+		if i != len(b) || nFrac == 0 || b[len(b)-1] == '0' {
+			return false
+		}
+	}
+	var sig, exp int
+	if b[s] != '0' {
+		sig, exp = nInt+nFrac, nInt-1
+	} else {
+		if nFrac == 0 {
+			return true // "0" or "-0"
+		}
+		z := 0
+		for z < nFrac && b[s+2+z] == '0' {
+			z++
+		}
+		sig, exp = nFrac-z, -(z + 1)
+	}
+	return sig <= 15 && exp >= -4 && exp <= 5
+}
+
 // Norm normalises text for duplicate checks: surrounding whitespace trimmed, inner runs of
 // whitespace collapsed to one space, lower-cased (Unicode simple case folding to lower).
 func Norm(s string) string {

@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"strconv"
 	"testing"
 )
 
@@ -24,7 +25,7 @@ func TestInferValue(t *testing.T) {
 		{"yes", TypeText}, {"t", TypeText}, // never guessed
 		{"2024-03-01", TypeDate}, {"2024-02-29", TypeDate}, {"2000-02-29", TypeDate},
 		{"2023-02-29", TypeText}, {"1900-02-29", TypeText}, {"2024-13-01", TypeText}, {"2024-04-31", TypeText}, {"2024-3-1", TypeText},
-		{"2024-03-01T08:15:00Z", TypeTimestamp},         // RFC 3339 §5.8 style
+		{"2024-03-01T08:15:00Z", TypeTimestamp},          // RFC 3339 §5.8 style
 		{"2024-03-01T08:15:00.123+02:00", TypeTimestamp}, // with fraction and offset
 		{"2024-03-01 08:15:00", TypeTimestamp}, {"2024-03-01T08:15", TypeTimestamp}, {"2024-03-01T08:15:00-0500", TypeTimestamp},
 		{"2024-03-01T24:00:00", TypeText}, {"2024-03-01T08:60", TypeText}, {"2024-03-01T08:15:00+25:00", TypeText}, {"2024-03-01T08:15:00 Z", TypeText},
@@ -90,6 +91,25 @@ func TestColStat_Decide(t *testing.T) {
 	}
 }
 
+// The digest hashes a REAL's input text when it already is Go's shortest 'g' form; the
+// expected answers are strconv.FormatFloat's own (checked in the loop).
+func TestRealTextCanonical(t *testing.T) {
+	for _, s := range []string{"0", "-0", "1.5", "0.1", "0.0001", "123456", "123456.789012345", "-0.25", "2", "100000",
+		"0.00001", "1000000", "1.50", "01.5", ".5", "1e5", "1234567890.123456", "0.30000000000000004"} {
+		want := false
+		if x, err := strconv.ParseFloat(s, 64); err == nil {
+			want = strconv.FormatFloat(x, 'g', -1, 64) == s
+		}
+		got := realTextCanonical([]byte(s))
+		if got && !want {
+			t.Errorf("realTextCanonical(%q) = true, but FormatFloat differs", s)
+		}
+		if !got && want && len(s) < 16 {
+			t.Errorf("realTextCanonical(%q) = false for a canonical short value", s)
+		}
+	}
+}
+
 func TestNorm(t *testing.T) {
 	tests := []struct{ in, want string }{
 		{"  Cast  IRON ", "cast iron"},
@@ -109,7 +129,7 @@ func TestNorm(t *testing.T) {
 // type (pass 2 never meets a value that pass 1 typed but cannot store), and that the stored
 // form of an inferred number reads back as the same type.
 func FuzzInfer(f *testing.F) {
-	for _, s := range []string{"42", "00123", "1.5", "-0", "2024-02-29", "2024-03-01 08:15", "true", "9223372036854775808", "1e999", ".5", "NaN"} {
+	for _, s := range []string{"42", "00123", "1.5", "-0", "0.0001", "123456.5", "2024-02-29", "2024-03-01 08:15", "true", "9223372036854775808", "1e999", ".5", "NaN"} {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
@@ -125,6 +145,12 @@ func FuzzInfer(f *testing.F) {
 		if typ == TypeTimestamp {
 			if again, _ := InferValue(v.(string), nil); again != TypeTimestamp {
 				t.Fatalf("%q: canonical form %q is %v", s, v, again)
+			}
+		}
+		if realTextCanonical([]byte(s)) {
+			x, err := strconv.ParseFloat(s, 64)
+			if err != nil || strconv.FormatFloat(x, 'g', -1, 64) != s {
+				t.Fatalf("%q taken as canonical REAL text, but FormatFloat gives %q", s, strconv.FormatFloat(x, 'g', -1, 64))
 			}
 		}
 		if _, ok := c.value(typ, true, []byte(s)); !ok {

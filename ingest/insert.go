@@ -19,6 +19,7 @@ const maxParams = 32000
 type batch struct {
 	args    []driver.NamedValue
 	n       int
+	src     int // index of the source every row of the batch comes from
 	rejects []Problem
 }
 
@@ -34,7 +35,7 @@ func newBatch(per, width int) *batch {
 // digests rows into batches while this goroutine executes multi-row INSERTs through the
 // driver's own statement interface (no database/sql conversion per value).
 func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
-	width := 4 + len(l.cols)
+	width := 2 + len(l.cols) // ss_line, ss_digest, user columns (ss_row and ss_source are not bound)
 	per := l.opts.BatchRows
 	if per*width > maxParams {
 		per = max(1, maxParams/width)
@@ -72,10 +73,17 @@ func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
 	return res, nil
 }
 
-func (l *loader) insertSQL(rows int) string {
+// insertSQL is a multi-row INSERT for one source. ss_row is left to SQLite: an INTEGER
+// PRIMARY KEY without a value gets max(ss_row)+1, so rows are numbered in load order and an
+// append continues the sequence. The source name is a literal, not a bound value.
+func (l *loader) insertSQL(src string, rows int) string {
 	var b strings.Builder
-	b.WriteString("INSERT INTO " + quoteIdent(l.table) + " VALUES ")
-	one := "(" + strings.Repeat("?,", 4+len(l.cols)-1) + "?)"
+	b.WriteString("INSERT INTO " + quoteIdent(l.table) + " (ss_source, ss_line, ss_digest")
+	for _, c := range l.cols {
+		b.WriteString(", " + quoteIdent(c))
+	}
+	b.WriteString(") VALUES ")
+	one := "(" + quoteString(src) + strings.Repeat(",?", 2+len(l.cols)) + ")"
 	for i := range rows {
 		if i > 0 {
 			b.WriteByte(',')
@@ -102,23 +110,30 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 		}
 		return se, func() { st.Close() }, nil
 	}
-	stFull, closeFull, err := prepare(l.insertSQL(per))
-	if err != nil {
-		return fmt.Errorf("insert into %s: %w", l.table, err)
-	}
-	defer closeFull()
+	var stFull driver.StmtExecContext
+	closeFull := func() {}
+	defer func() { closeFull() }()
+	curSrc := -1
 	var stRej driver.StmtExecContext
 	rejArgs := make([]driver.NamedValue, 8)
 	for i := range rejArgs {
 		rejArgs[i].Ordinal = i + 1
 	}
 	for b := range full {
+		if b.n > 0 && b.src != curSrc {
+			closeFull()
+			var err error
+			if stFull, closeFull, err = prepare(l.insertSQL(l.srcs[b.src].name, per)); err != nil {
+				return fmt.Errorf("insert into %s: %w", l.table, err)
+			}
+			curSrc = b.src
+		}
 		if b.n == per {
 			if _, err := stFull.ExecContext(ctx, b.args); err != nil {
 				return fmt.Errorf("insert into %s: %w", l.table, err)
 			}
 		} else if b.n > 0 {
-			st, closeSt, err := prepare(l.insertSQL(b.n))
+			st, closeSt, err := prepare(l.insertSQL(l.srcs[b.src].name, b.n))
 			if err != nil {
 				return fmt.Errorf("insert into %s: %w", l.table, err)
 			}
@@ -131,6 +146,7 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 		for _, p := range b.rejects {
 			if stRej == nil {
 				var closeRej func()
+				var err error
 				stRej, closeRej, err = prepare(`INSERT INTO ss_rejects(run_id, table_name, source, line, column_name, value, reason, raw) VALUES(?,?,?,?,?,?,?,?)`)
 				if err != nil {
 					return fmt.Errorf("quarantine: %w", err)
@@ -163,10 +179,12 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 	d := NewDigester()
 	rowID := l.firstRow
 	var b *batch
+	src := 0
 	get := func() error {
 		select {
 		case b = <-free:
 			b.n = 0
+			b.src = src
 			b.rejects = b.rejects[:0]
 			return nil
 		case <-ctx.Done():
@@ -185,10 +203,19 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 	if err := get(); err != nil {
 		return err
 	}
-	for _, s := range l.srcs {
+	for si, s := range l.srcs {
 		if err := s.unchanged(); err != nil {
 			return err
 		}
+		if b.n > 0 || len(b.rejects) > 0 { // a batch holds rows of one source only
+			if err := send(); err != nil {
+				return err
+			}
+			if err := get(); err != nil {
+				return err
+			}
+		}
+		b.src, src = si, si
 		rr, done, err := s.open(false, l.progress)
 		if err != nil {
 			return err
@@ -209,7 +236,6 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 	if _, _, err := rr.header(); err != nil {
 		return fmt.Errorf("read %s: %w", s.name, err)
 	}
-	src := driver.Value(s.name)
 	for {
 		ok, err := rr.next()
 		if err != nil {
@@ -240,13 +266,11 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 			continue
 		}
 		args := b.args[b.n*width : (b.n+1)*width]
-		args[0].Value = *rowID
-		args[1].Value = src
-		args[2].Value = r.line
+		args[0].Value = r.line
 		d.Reset()
 		for i, f := range r.fields {
 			if l.isMissing(f) {
-				args[4+i].Value = nil
+				args[2+i].Value = nil
 				d.Null()
 				continue
 			}
@@ -259,13 +283,17 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 			case int64:
 				d.Int(x)
 			case float64:
-				d.Real(x)
+				if realTextCanonical(f) {
+					d.realText(f)
+				} else {
+					d.Real(x)
+				}
 			case string:
 				d.Text(x)
 			}
-			args[4+i].Value = v
+			args[2+i].Value = v
 		}
-		args[3].Value = d.Sum()
+		args[1].Value = d.Sum()
 		*rowID++
 		s.rows++
 		b.n++

@@ -11,6 +11,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"unsafe"
 )
 
 // Options say how Load reads and stores its inputs. The zero value infers types, fails on
@@ -289,6 +290,8 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 }
 
 func quoteIdent(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
+
+func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`) + `'` }
 
 func statSize(path string) (int64, error) {
 	st, err := osStat(path)
@@ -621,7 +624,7 @@ func (c *converter) value(t Type, lenient bool, b []byte) (driver.Value, bool) {
 		if !lenient && classifyNumber(b)&mReal == 0 {
 			return nil, false
 		}
-		v, err := strconv.ParseFloat(string(b), 64)
+		v, err := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64) // b is not kept
 		if err != nil || v-v != 0 {
 			return nil, false
 		}

@@ -70,7 +70,7 @@ var (
 			"are equal after normalisation: text trimmed, runs of spaces, tabs and line breaks collapsed to one space, ASCII " +
 			"letters lower-cased (as SQLite's lower()); REAL values rounded to `digits` significant digits; INTEGER values exact. " +
 			"A row on both sides lets a model score its own training data (error). Copies within the holdout give those rows " +
-			"extra weight in the holdout metric (warn).",
+			"extra weight in the holdout metric (warn); copies within a training or other side are listed for information.",
 		Params: []Param{{"digits", exactDigits, "significant digits REAL values are rounded to before comparing (9: tolerance of about 1 part in 10^9)"}},
 		SQL:    "stock",
 		run:    runExactDuplicate,

@@ -61,7 +61,7 @@ func runExactDuplicate(a *audit) error {
 	key := a.featureKey()
 	keys := a.keys(key)
 	groups := groupsOf(keys)
-	var within []Finding
+	var within, other []Finding
 	for _, g := range groups {
 		if a.distinctSides(g) > 1 {
 			s := a.groupSides(g)
@@ -71,19 +71,22 @@ func runExactDuplicate(a *audit) error {
 		}
 		per := map[int][]int32{}
 		for _, i := range g {
-			if a.sides[a.side[i]].Role == "holdout" {
-				per[a.side[i]] = append(per[a.side[i]], i)
-			}
+			per[a.side[i]] = append(per[a.side[i]], i)
 		}
 		for si := range a.sides {
-			if h := per[si]; len(h) > 1 {
+			if h := per[si]; len(h) > 1 && a.sides[si].Role != "holdout" {
+				s := a.groupSides(h)
+				other = append(other, Finding{Severity: Info, Subject: "within other sides", Sides: s, Score: 1, Query: a.queryName("within_other"),
+					Message: fmt.Sprintf("%d identical rows on side %s (repeated records, e.g. imported twice)", len(h), a.sides[si].Name)})
+			}
+			if h := per[si]; len(h) > 1 && a.sides[si].Role == "holdout" {
 				s := a.groupSides(h)
 				within = append(within, Finding{Severity: Warn, Subject: "within holdout", Sides: s, Score: 1, Query: a.queryName("within_holdout"),
 					Message: fmt.Sprintf("%d identical rows on holdout side %s count %d times in its metric", len(h), a.sides[si].Name, len(h))})
 			}
 		}
 	}
-	for _, f := range within {
+	for _, f := range append(within, other...) {
 		a.add(f)
 	}
 	ks := a.keySQL(key, "t")
@@ -94,6 +97,9 @@ func runExactDuplicate(a *audit) error {
 	a.addQuery(Query{Name: a.queryName("within_holdout"), Kind: "check",
 		Description: "identical rows repeated within a holdout side; no rows = the stored exact_duplicate findings (within holdout) hold",
 		SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY side, key) FROM k WHERE role = 'holdout' AND (side, key) IN (SELECT side, key FROM k WHERE role = 'holdout' GROUP BY side, key HAVING count(*) > 1)`, "within holdout")})
+	a.addQuery(Query{Name: a.queryName("within_other"), Kind: "check",
+		Description: "identical rows repeated within a train or other side; no rows = the stored exact_duplicate findings (within other sides) hold",
+		SQL: a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY side, key) FROM k WHERE role <> 'holdout' AND (side, key) IN (SELECT side, key FROM k WHERE role <> 'holdout' GROUP BY side, key HAVING count(*) > 1)`, "within other sides")})
 	return nil
 }
 

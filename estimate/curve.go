@@ -584,7 +584,18 @@ type CapacityResult struct {
 	// not extrapolated.
 	Reached   bool
 	ReachedAt int
+	// Inconsistent is true when the fitted curve reaches the target within the measured
+	// sizes although no measured size did: that n* is not used.
+	Inconsistent bool
+	// Unreliable is true when the curve reaches the target but its backtest error exceeds
+	// MaxBacktest: that n* is reported but not used for the best capacity.
+	Unreliable bool
 }
+
+// MaxBacktest is the largest backtest error (mean relative error predicting the held-out
+// largest sizes) at which a capacity's n* is trusted for the sweep's answer (common practice,
+// no source).
+const MaxBacktest = 0.25
 
 // SizeBest is the capacity with the lowest mean holdout error at one size.
 type SizeBest struct {
@@ -728,14 +739,20 @@ func Summarise(points []CurvePoint, model, metric string, trainRows int, opts *S
 			cr.Err = err.Error()
 		}
 		cr.Result = res
-		rep.Capacities = append(rep.Capacities, cr)
 		var nstar *Interval
 		switch {
 		case cr.Reached:
 			nstar = &Interval{Est: float64(cr.ReachedAt), Lo: float64(prev), Hi: float64(cr.ReachedAt), Method: "measured"}
-		case res != nil && res.NStar != nil && res.Reachable && !math.IsInf(res.NStar.Est, 0):
+		case res != nil && res.NStar != nil && res.Reachable && !math.IsInf(res.NStar.Est, 0) && res.Best.BacktestErr > MaxBacktest:
+			cr.Unreliable = true
+		case res != nil && res.NStar != nil && res.Reachable && !math.IsInf(res.NStar.Est, 0) && res.NStar.Est > float64(sz[len(sz)-1]):
+			// No measured size met the target, so a fitted n* within the measured sizes
+			// contradicts the measurements; only one beyond them is an estimate.
 			nstar = res.NStar
+		case res != nil && res.NStar != nil && res.Reachable && !math.IsInf(res.NStar.Est, 0):
+			cr.Inconsistent = true
 		}
+		rep.Capacities = append(rep.Capacities, cr)
 		if nstar != nil && (rep.BestNStar == nil || nstar.Est < rep.BestNStar.Est) {
 			rep.BestCapacity, rep.BestNStar = c, nstar
 		}
@@ -792,6 +809,24 @@ func sweepVerdict(r *SweepReport) string {
 		}
 		if len(unreach) > 0 {
 			fmt.Fprintf(&b, " With %s the target is at or below the fitted asymptote: more data will not get there, more capacity might (underfitting).", strings.Join(unreach, ", "))
+		}
+		var inc []string
+		for _, c := range r.Capacities {
+			if c.Inconsistent {
+				inc = append(inc, lab(c.Capacity))
+			}
+		}
+		var unrel []string
+		for _, c := range r.Capacities {
+			if c.Unreliable {
+				unrel = append(unrel, lab(c.Capacity))
+			}
+		}
+		if len(unrel) > 0 {
+			fmt.Fprintf(&b, " The n* of %s is not used: refitted on the smaller sizes, the curve missed the largest ones by more than %.0f%% (backtest).", strings.Join(unrel, ", "), 100*MaxBacktest)
+		}
+		if len(inc) > 0 {
+			fmt.Fprintf(&b, " For %s the fitted curve crosses the target inside the measured sizes although no measurement did: that n* is not trusted.", strings.Join(inc, ", "))
 		}
 		if len(noisy) > 0 {
 			fmt.Fprintf(&b, " With %s the fitted curve does not reach the target either, but its training error is far below its holdout error: the curve is dominated by variance at these sizes, so its asymptote is poorly determined; less capacity or more regularisation is the safer choice.", strings.Join(noisy, ", "))

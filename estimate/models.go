@@ -264,11 +264,15 @@ func FitPolyRidge(d Data, deg int, ridge float64) (*PolyRidge, error) {
 	if err := d.check("ridge"); err != nil {
 		return nil, err
 	}
+	return fitPolyRidgeScaled(d, deg, ridge, newScaler(d))
+}
+
+// fitPolyRidgeScaled is FitPolyRidge with a given standardisation.
+func fitPolyRidgeScaled(d Data, deg int, ridge float64, sc scaler) (*PolyRidge, error) {
 	basis, err := newPolyBasis(d.P, deg, d.Groups)
 	if err != nil {
 		return nil, err
 	}
-	sc := newScaler(d)
 	m := basis.Terms(deg)
 	lambdaN := ridgeLambda(ridge) * float64(d.N)
 	z := make([]float64, d.P)

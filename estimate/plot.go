@@ -16,10 +16,18 @@ import (
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
-	"gonum.org/v1/plot/plotutil"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 )
+
+// palette: ColorBrewer "Dark2" (8 qualitative colours, Brewer & Harrower, colorbrewer2.org),
+// then four darker extras, so up to 12 capacities get distinct colours.
+var palette = []color.Color{
+	color.RGBA{0x1b, 0x9e, 0x77, 0xff}, color.RGBA{0xd9, 0x5f, 0x02, 0xff}, color.RGBA{0x75, 0x70, 0xb3, 0xff},
+	color.RGBA{0xe7, 0x29, 0x8a, 0xff}, color.RGBA{0x66, 0xa6, 0x1e, 0xff}, color.RGBA{0xe6, 0xab, 0x02, 0xff},
+	color.RGBA{0xa6, 0x76, 0x1d, 0xff}, color.RGBA{0x66, 0x66, 0x66, 0xff}, color.RGBA{0x1f, 0x4e, 0x9a, 0xff},
+	color.RGBA{0x8c, 0x1c, 0x13, 0xff}, color.RGBA{0x2d, 0x6a, 0x4f, 0xff}, color.RGBA{0x5b, 0x2a, 0x86, 0xff},
+}
 
 // PlotOptions label a curve plot.
 type PlotOptions struct {
@@ -78,8 +86,9 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				xEnd = math.Max(xEnd, 1.2*c.Result.NStar.Est)
 			}
 		}
-		xEnd = math.Min(xEnd, 1000*nMax)
+		xEnd = math.Min(xEnd, 100*nMax)
 	}
+	measMin := yMin // the smallest measured error bounds the axis (extrapolations may dive)
 	results := map[float64]CapacityResult{}
 	if rep != nil {
 		for _, c := range rep.Capacities {
@@ -92,7 +101,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 	}
 	bandShown := false
 	for i, c := range caps {
-		col := plotutil.Color(i)
+		col := palette[i%len(palette)]
 		pts := byCap[c]
 		sizes := map[int][]CurvePoint{}
 		var ns []int
@@ -136,7 +145,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 			}
 			eb.LineStyle.Color = col
 			p.Add(sc, eb)
-			p.Legend.Add(name+" holdout", sc)
+			p.Legend.Add(name, sc)
 		}
 		if len(train) > 0 {
 			sc, err := plotter.NewScatter(train)
@@ -145,7 +154,9 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 			}
 			sc.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.5), Shape: draw.RingGlyph{}}
 			p.Add(sc)
-			p.Legend.Add(name+" training", sc)
+			if i == 0 {
+				p.Legend.Add("hollow: training error", sc)
+			}
 		}
 		cr, ok := results[c]
 		if !ok || cr.Result == nil {
@@ -177,7 +188,6 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 			}
 			l.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(3)}}
 			p.Add(l)
-			yMin = math.Min(yMin, xy[len(xy)-1].Y)
 		}
 		as := cr.Result.Asymptote
 		if as.Method != "none" && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
@@ -198,7 +208,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				yMin = math.Min(yMin, lo)
 			}
 		}
-		if ns := cr.Result.NStar; ns != nil && cr.Result.Reachable && !math.IsInf(ns.Est, 0) && rep.Target > 0 {
+		if ns := rep.BestNStar; ns != nil && c == rep.BestCapacity && rep.Target > 0 && ns.Est <= xEnd {
 			mk, err := plotter.NewScatter(plotter.XYs{{X: ns.Est, Y: rep.Target}})
 			if err != nil {
 				return nil, err
@@ -213,7 +223,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				seg.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(3)}
 				p.Add(seg)
 			}
-			p.Legend.Add(fmt.Sprintf("%s n* ≈ %.0f", name, math.Ceil(ns.Est)), mk)
+			p.Legend.Add(fmt.Sprintf("n* ≈ %.0f (%s)", math.Ceil(ns.Est), name), mk)
 		}
 	}
 	if rep != nil && rep.Target > 0 {
@@ -227,7 +237,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 		yMin, yMax = math.Min(yMin, rep.Target), math.Max(yMax, rep.Target)
 	}
 	if yMin > 0 && yMax > 0 {
-		p.Y.Min, p.Y.Max = yMin/1.3, yMax*1.3
+		p.Y.Min, p.Y.Max = math.Max(yMin, measMin/10)/1.3, yMax*1.3
 	}
 	p.X.Min, p.X.Max = nMin/1.3, xEnd*1.1
 	p.Add(plotter.NewGrid())

@@ -12,15 +12,17 @@ package estimate
 // So one accumulation per repeat (a rank-k update, BLAS dsyrk, over blocks of expanded rows)
 // serves every (size, degree). Each (repeat, size, degree) system is then solved by Cholesky
 // with the ridge term; when the factorisation fails or its condition estimate exceeds
-// CondLimit, that system is re-solved by Householder QR on its expanded rows (qrSolve). The
-// accumulations (one per repeat) and then the solves run on all cores.
+// CondLimit, that system is re-solved by Householder QR, again in one pass per repeat (phase 3
+// below). The accumulations (one per repeat) and then the solves run on all cores.
 
 import (
 	"context"
 	"fmt"
+	"math"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/mat"
 )
 
 // maxExpanded bounds the expanded training matrix kept in memory (float64s); above it rows are
@@ -131,32 +133,17 @@ func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o Cur
 	}
 	pts := make([]CurvePoint, len(items))
 	usedQR := make([]bool, len(items))
-	err = parallel(ctx, len(items), prog, func(i int) error {
+	// score evaluates item i's coefficients on its training subset and on the holdout side.
+	score := func(i int, beta []float64) error {
 		it := items[i]
 		n := o.Sizes[it.k]
 		deg := degs[it.d]
 		mm := basis.Terms(deg)
-		full := grams[it.r][it.k]
-		g := make([]float64, mm*mm)
-		for a := 0; a < mm; a++ {
-			copy(g[a*mm+a:(a+1)*mm], full[a*m+a:a*m+mm])
-		}
-		mirror(g, mm)
-		perm := perms[it.r][:n]
-		buf := make([]float64, m)
-		beta, _, ok := ridgeSolve(g, rhs[it.r][it.k][:mm], mm, lambda*float64(n))
-		if !ok {
-			usedQR[i] = true
-			var err error
-			beta, err = qrSolve(n, mm, func(i int, dst []float64) { row(perm[i], dst, buf) },
-				func(i int) float64 { return train.Y[perm[i]] }, lambda*float64(n))
-			if err != nil {
-				return fmt.Errorf("ridge degree %d, size %d: %w", deg, n, err)
-			}
-		}
 		if keep != nil {
 			keep(it.r, n, deg, beta, usedQR[i])
 		}
+		perm := perms[it.r][:n]
+		buf := make([]float64, m)
 		y := make([]float64, n)
 		pred := make([]float64, n)
 		t := make([]float64, mm)
@@ -179,6 +166,97 @@ func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o Cur
 		}
 		pts[i] = CurvePoint{Capacity: float64(deg), Size: n, Repeat: it.r + 1, TrainErr: te, HoldoutErr: he}
 		return nil
+	}
+	err = parallel(ctx, len(items), prog, func(i int) error {
+		it := items[i]
+		n := o.Sizes[it.k]
+		mm := basis.Terms(degs[it.d])
+		full := grams[it.r][it.k]
+		g := make([]float64, mm*mm)
+		for a := 0; a < mm; a++ {
+			copy(g[a*mm+a:(a+1)*mm], full[a*m+a:a*m+mm])
+		}
+		mirror(g, mm)
+		beta, _, ok := ridgeSolve(g, rhs[it.r][it.k][:mm], mm, lambda*float64(n))
+		if !ok {
+			usedQR[i] = true // solved in phase 3
+			return nil
+		}
+		return score(i, beta)
+	})
+	if err != nil {
+		return nil, stats, err
+	}
+	// Phase 3: the systems Cholesky refused, by QR. For each repeat that has any, one pass of
+	// block Householder updates of R (the triangular factor of [X y] over the nested rows)
+	// gives, at each size, the factor of every degree at once: the QR factor of a column
+	// prefix is the leading block of the full factor (Golub & Van Loan, §5.2; updating by
+	// stacking [R; new rows], §6.5). The ridge rows √(λn)·I are appended at each size.
+	need := make([]map[int][]int, o.Repeats) // repeat → size index → item indexes
+	for i, q := range usedQR {
+		if q {
+			it := items[i]
+			if need[it.r] == nil {
+				need[it.r] = map[int][]int{}
+			}
+			need[it.r][it.k] = append(need[it.r][it.k], i)
+		}
+	}
+	var qrRepeats []int
+	for r := range need {
+		if need[r] != nil {
+			qrRepeats = append(qrRepeats, r)
+		}
+	}
+	err = parallel(ctx, len(qrRepeats), nil, func(qi int) error {
+		r := qrRepeats[qi]
+		perm := perms[r]
+		cols := m + 1
+		rext := mat.NewDense(cols, cols, nil)
+		buf := make([]float64, m)
+		start := 0
+		for k, n := range o.Sizes {
+			for start < n {
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+				end := min(start+block, n)
+				st := mat.NewDense(cols+end-start, cols, nil)
+				st.Slice(0, cols, 0, cols).(*mat.Dense).Copy(rext)
+				for j := start; j < end; j++ {
+					dst := st.RawRowView(cols + j - start)
+					row(perm[j], dst[:m], buf)
+					dst[m] = train.Y[perm[j]]
+				}
+				rext = upperFactor(st, cols)
+				start = end
+			}
+			idx := need[r][k]
+			if len(idx) == 0 {
+				continue
+			}
+			rk := rext
+			if lam := lambda * float64(n); lam > 0 {
+				st := mat.NewDense(cols+m-1, cols, nil)
+				st.Slice(0, cols, 0, cols).(*mat.Dense).Copy(rext)
+				sq := math.Sqrt(lam)
+				for j := 1; j < m; j++ {
+					st.Set(cols+j-1, j, sq)
+				}
+				rk = upperFactor(st, cols)
+			}
+			for _, i := range idx {
+				mm := basis.Terms(degs[items[i].d])
+				beta, err := triSolve(rk, mm, m)
+				if err != nil {
+					return fmt.Errorf("ridge degree %d, size %d: %w", degs[items[i].d], n, err)
+				}
+				if err := score(i, beta); err != nil {
+					return err
+				}
+			}
+		}
+		return nil
 	})
 	stats.Systems = len(items)
 	for _, q := range usedQR {
@@ -187,4 +265,37 @@ func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o Cur
 		}
 	}
 	return pts, stats, err
+}
+
+// upperFactor returns the cols×cols upper-triangular factor R of the Householder QR of a.
+func upperFactor(a *mat.Dense, cols int) *mat.Dense {
+	var qr mat.QR
+	qr.Factorize(a)
+	var r mat.Dense
+	qr.RTo(&r)
+	out := mat.NewDense(cols, cols, nil)
+	out.Copy(r.Slice(0, cols, 0, cols))
+	return out
+}
+
+// triSolve solves R[:mm,:mm] β = R[:mm, rhsCol] by back substitution, refusing a factor whose
+// diagonal has an entry below 1e-13 of its largest (rank deficient to working precision).
+func triSolve(r *mat.Dense, mm, rhsCol int) ([]float64, error) {
+	var dmax float64
+	for i := 0; i < mm; i++ {
+		dmax = math.Max(dmax, math.Abs(r.At(i, i)))
+	}
+	beta := make([]float64, mm)
+	for i := mm - 1; i >= 0; i-- {
+		d := r.At(i, i)
+		if !(math.Abs(d) > 1e-13*dmax) {
+			return nil, ErrIllConditioned
+		}
+		s := r.At(i, rhsCol)
+		for j := i + 1; j < mm; j++ {
+			s -= r.At(i, j) * beta[j]
+		}
+		beta[i] = s / d
+	}
+	return beta, nil
 }

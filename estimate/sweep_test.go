@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/floats/scalar"
 )
 
 // sweepBenchData is the benchmark's data (the same generator as bench/sweep_sklearn.py, not
@@ -66,5 +68,52 @@ func TestSweep_BenchDataWellConditioned(t *testing.T) {
 	// The noise variance 0.09 bounds the holdout MSE from below.
 	if !(quint < lin && quint > 0.09*0.95) {
 		t.Errorf("holdout MSE degree 5 %g, degree 1 %g", quint, lin)
+	}
+}
+
+// The QR path over several row blocks (degree 12 in one skewed variable: Cholesky is refused) gives
+// the same fits as a dense QR of each subset (FitPolyRidge's fallback), ridge included.
+func TestSweep_QRPathMatchesDenseQR(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	mk := func(n int) Data {
+		d := Data{X: make([]float64, n), Y: make([]float64, n), N: n, P: 1}
+		for i := range d.X {
+			x := math.Exp(0.6 * rng.NormFloat64())
+			d.X[i], d.Y[i] = x, math.Sin(2*x)+0.1*rng.NormFloat64()
+		}
+		return d
+	}
+	train, hold := mk(1500), mk(200)
+	for _, ridge := range []float64{-1, 1e-6} {
+		o := CurveOptions{Sizes: []int{300, 700, 1100, 1500}, Repeats: 2, Metric: "mse", Ridge: ridge, Seed: 3}
+		pts, stats, err := sweepRidgeStats(context.Background(), train, hold, []int{2, 12}, o, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if stats.QRSolves != 8 {
+			t.Errorf("ridge %g: %d QR solves, want the 8 degree-12 systems", ridge, stats.QRSolves)
+		}
+		for _, pt := range pts {
+			perm := permutation(3, pt.Repeat-1, train.N)[:pt.Size]
+			sub := Data{N: pt.Size, P: 1}
+			for _, src := range perm {
+				sub.X = append(sub.X, train.X[src])
+				sub.Y = append(sub.Y, train.Y[src])
+			}
+			// Same standardisation as the sweep (the whole side's), so the penalty means the same.
+			sc := newScaler(train)
+			m, err := fitPolyRidgeScaled(sub, int(pt.Capacity), ridge, sc)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var se float64
+			for i := 0; i < hold.N; i++ {
+				e := hold.Y[i] - m.Predict(hold.Row(i))
+				se += e * e
+			}
+			if got := se / float64(hold.N); !scalar.EqualWithinRel(pt.HoldoutErr, got, 1e-7) {
+				t.Errorf("ridge %g degree %v size %d: sweep %.12g, dense fit %.12g", ridge, pt.Capacity, pt.Size, pt.HoldoutErr, got)
+			}
+		}
 	}
 }

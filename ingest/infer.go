@@ -247,7 +247,12 @@ func daysIn(y, m int) int {
 // isTimestamp checks YYYY-MM-DD[T ]hh:mm[:ss[.f+]][Z|±hh:mm|±hhmm] and reports whether it has
 // a zone.
 func isTimestamp(b []byte) (ok, zoned bool) {
-	_, ok, zoned = canonTimestamp(b, nil)
+	var buf [64]byte
+	if len(b) > len(buf)-4 {
+		_, ok, zoned = canonTimestamp(b, nil)
+		return ok, zoned
+	}
+	_, ok, zoned = canonTimestamp(b, buf[:0])
 	return ok, zoned
 }
 

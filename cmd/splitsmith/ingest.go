@@ -159,12 +159,15 @@ func runIngest(ctx context.Context, cc *cli.Context, o ingestOptions, s stdio) e
 
 func printIngest(w, ew io.Writer, r *ingest.Result) {
 	verb := map[string]string{"create": "created", "replace": "replaced", "append": "appended to"}[r.Mode]
-	fmt.Fprintf(w, "%s table %s: %d rows loaded (ss_row %d..%d)", verb, r.Table, r.Rows, r.FirstRow, r.FirstRow+r.Rows-1)
+	fmt.Fprintf(w, "%s table %s: %s loaded", verb, r.Table, ingestPlural(r.Rows, "row"))
+	if r.Rows > 0 {
+		fmt.Fprintf(w, " (ss_row %d..%d)", r.FirstRow, r.FirstRow+r.Rows-1)
+	}
 	if r.Skipped > 0 {
-		fmt.Fprintf(w, ", %d bad rows skipped", r.Skipped)
+		fmt.Fprintf(w, ", %s skipped", ingestPlural(r.Skipped, "bad row"))
 	}
 	if r.Rejected > 0 {
-		fmt.Fprintf(w, ", %d bad rows quarantined in ss_rejects", r.Rejected)
+		fmt.Fprintf(w, ", %s quarantined in ss_rejects", ingestPlural(r.Rejected, "bad row"))
 	}
 	fmt.Fprintln(w)
 	fmt.Fprintln(w)
@@ -191,6 +194,13 @@ func printIngest(w, ew io.Writer, r *ingest.Result) {
 		fmt.Fprintf(ew, "%s: %s\n", what, p.Error())
 	}
 	if n := r.Skipped + r.Rejected - int64(len(r.Problems)); n > 0 {
-		fmt.Fprintf(ew, "%s: ... and %s more bad rows\n", what, strconv.FormatInt(n, 10))
+		fmt.Fprintf(ew, "%s: ... and %s more\n", what, ingestPlural(n, "bad row"))
 	}
+}
+
+func ingestPlural(n int64, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return strconv.FormatInt(n, 10) + " " + noun + "s"
 }

@@ -150,6 +150,8 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 	for i := range vals {
 		ptrs[i] = &vals[i]
 	}
+	var id, dg int64 // ss_row and ss_digest scan straight into integers
+	ptrs[0], ptrs[1] = &id, &dg
 	h := newHasher(spec.Seed)
 	var keyBuf []byte
 	strataIdx := map[string]int32{}
@@ -159,8 +161,6 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		if err := rows.Scan(ptrs...); err != nil {
 			return nil, fmt.Errorf("read %s: %w", t.Name, err)
 		}
-		id, _ := vals[0].(int64)
-		dg, _ := vals[1].(int64)
 		d.rowID = append(d.rowID, id)
 		d.digest = append(d.digest, dg)
 		if len(keyIdx) == 0 {

@@ -269,21 +269,44 @@ func orEmpty(s []string) []string {
 	return s
 }
 
-// writeRows inserts ss_split_rows in batches of multi-row INSERTs.
+// writeRows inserts ss_split_rows in batches of multi-row INSERTs. The split name is a
+// literal of the statement and only the columns that vary are parameters (row_id and side,
+// plus fold, train_from and reason when the split has them), which halves the binding work.
 func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *assignment, progress func(done, total int64)) error {
-	const batch = 200
+	const batch = 1000
+	hasFold, hasTF, hasReason := a.fold != nil, a.trainFrom != nil, false
+	for _, r := range a.reason {
+		if r != reasonNone {
+			hasReason = true
+			break
+		}
+	}
+	tuple := "(" + quoteString(name) + ",?,?"
+	per := 2
+	for _, on := range []struct {
+		has bool
+		def string
+	}{{hasFold, "NULL"}, {hasTF, "NULL"}, {hasReason, "''"}} {
+		if on.has {
+			tuple += ",?"
+			per++
+		} else {
+			tuple += "," + on.def
+		}
+	}
+	tuple += "),"
 	stmt := func(n int) string {
-		return `INSERT INTO ss_split_rows(split_name, row_id, side, fold, train_from, reason) VALUES` + strings.TrimSuffix(strings.Repeat("(?,?,?,?,?,?),", n), ",")
+		return `INSERT INTO ss_split_rows(split_name, row_id, side, fold, train_from, reason) VALUES` + strings.TrimSuffix(strings.Repeat(tuple, n), ",")
 	}
 	full, err := conn.PrepareContext(ctx, stmt(batch))
 	if err != nil {
 		return err
 	}
 	defer full.Close()
-	args := make([]any, 0, 6*batch)
+	args := make([]any, 0, per*batch)
 	flush := func(st *sql.Stmt) error {
 		if st == nil {
-			s, err := conn.PrepareContext(ctx, stmt(len(args)/6))
+			s, err := conn.PrepareContext(ctx, stmt(len(args)/per))
 			if err != nil {
 				return err
 			}
@@ -298,20 +321,35 @@ func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *ass
 	for i, s := range a.sides {
 		sides[i] = s
 	}
+	reasons := make([]any, len(reasonNames))
+	for i, r := range reasonNames {
+		reasons[i] = r
+	}
+	var empty any = ""
 	for i := 0; i < d.n; i++ {
-		var side any = ""
+		side := empty
 		if a.side[i] >= 0 {
 			side = sides[a.side[i]]
 		}
-		var fold, tf any
-		if a.fold != nil && a.fold[i] > 0 {
-			fold = int64(a.fold[i])
+		args = append(args, d.rowID[i], side)
+		if hasFold {
+			var fold any
+			if a.fold[i] > 0 {
+				fold = int64(a.fold[i])
+			}
+			args = append(args, fold)
 		}
-		if a.trainFrom != nil && a.trainFrom[i] > 0 {
-			tf = int64(a.trainFrom[i])
+		if hasTF {
+			var tf any
+			if a.trainFrom[i] > 0 {
+				tf = int64(a.trainFrom[i])
+			}
+			args = append(args, tf)
 		}
-		args = append(args, name, d.rowID[i], side, fold, tf, reasonNames[a.reason[i]])
-		if len(args) == 6*batch {
+		if hasReason {
+			args = append(args, reasons[a.reason[i]])
+		}
+		if len(args) == per*batch {
 			if err := flush(full); err != nil {
 				return err
 			}

@@ -194,6 +194,19 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		src[id] = fmt.Sprintf("%s:%d", file, line)
 		return src[id]
 	}
+	if len(rep.Changes) > 200 {
+		r, err := conn.QueryContext(ctx, `SELECT ss_row, ss_source, ss_line FROM `+quoteIdent(table))
+		if err != nil {
+			return nil, fmt.Errorf("verify %s: %w", name, err)
+		}
+		for r.Next() {
+			var id, line int64
+			var file string
+			r.Scan(&id, &file, &line)
+			src[id] = fmt.Sprintf("%s:%d", file, line)
+		}
+		r.Close()
+	}
 	order := map[string]int{"changed": 0, "moved": 1, "added": 2, "removed": 3, "seal": 4, "count": 5}
 	sort.SliceStable(rep.Changes, func(i, j int) bool {
 		a, b := rep.Changes[i], rep.Changes[j]

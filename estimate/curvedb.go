@@ -57,7 +57,8 @@ type colInfo struct {
 // LoadSplit reads the split's training and holdout sides into feature matrices (rows in
 // ss_row order). Encoding, decided from the training side only:
 //   - INTEGER, REAL, BOOLEAN columns are numeric; a missing value becomes the training-side
-//     mean and, when the training side has any missing, a 0/1 column "<col>:missing" is added;
+//     mean and, when the training side has any missing, a 0/1 column "<col>:missing" is added
+//     (as a main effect only: it enters no polynomial product);
 //   - TEXT columns are categorical: one 0/1 column "<col>=<level>" per training-side level
 //     except the most frequent (the reference; ties by name); a missing value is its own level
 //     "(missing)"; a holdout value never seen in training counts as the reference;
@@ -277,10 +278,9 @@ func LoadSplit(ctx context.Context, conn *sql.Conn, spec LoadSpec) (*Loaded, err
 			p++
 			if e.missing {
 				ld.Columns = append(ld.Columns, f.name+":missing")
-				groups = append(groups, group)
-				group++
+				groups = append(groups, LinearOnly)
 				p++
-				ld.Notes = append(ld.Notes, fmt.Sprintf("%s: %d missing training values set to the training mean %g, with indicator %s:missing", f.name, nmiss, e.mean, f.name))
+				ld.Notes = append(ld.Notes, fmt.Sprintf("%s: %d missing training values set to the training mean %g, with indicator %s:missing (a main effect, in no product)", f.name, nmiss, e.mean, f.name))
 			}
 			continue
 		}

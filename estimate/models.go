@@ -31,6 +31,9 @@ import (
 // 0/1 feature its own group, the one-hot columns of one categorical feature one group), and
 // the polynomial expansion then omits a group's powers and within-group products, which are
 // identically linear in its terms (x² = x for 0/1; one-hot columns multiply to zero).
+// Groups[j] == LinearOnly keeps column j out of every product and power: it enters the model
+// as a main effect only (missing-value indicators, whose few rows could not support
+// interactions).
 type Data struct {
 	X      []float64
 	Y      []float64
@@ -46,6 +49,9 @@ func (d Data) where(i int) string {
 	}
 	return fmt.Sprintf("row %d", i+1)
 }
+
+// LinearOnly marks a column of Data.Groups that enters the polynomial as a main effect only.
+const LinearOnly = -2
 
 // Row returns row i of the feature matrix.
 func (d Data) Row(i int) []float64 { return d.X[i*d.P : (i+1)*d.P] }
@@ -140,6 +146,9 @@ func newPolyBasis(p, deg int, groups []int) (*polyBasis, error) {
 		for t := start; t < end; t++ {
 			for j := last[t]; j < p; j++ {
 				if groups != nil && groups[j] >= 0 && b.hasGroup(t, groups, groups[j]) {
+					continue
+				}
+				if groups != nil && t > 0 && (groups[j] == LinearOnly || b.hasGroup(t, groups, LinearOnly)) {
 					continue
 				}
 				if len(b.parent) >= MaxTerms {

@@ -164,6 +164,11 @@ func TestPolyBasis_GradedOrderAndIndicatorGroups(t *testing.T) {
 	if got := g.Terms(2); got != 4+3 { // 1, x0, x1, x2, x0², x0x1, x0x2
 		t.Errorf("terms with an indicator group: %d, want 7", got)
 	}
+	// Column 2 linear only: 1, x0, x1, x2, then x0², x0x1, x1² and cubes of x0, x1 only.
+	l, _ := newPolyBasis(3, 3, []int{-1, -1, LinearOnly})
+	if got := l.Terms(3); got != 4+3+4 {
+		t.Errorf("terms with a linear-only column: %d, want 11", got)
+	}
 }
 
 // Logistic regression against scikit-learn 1.2.1 (Debian python3-sklearn), produced by

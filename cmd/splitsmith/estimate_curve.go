@@ -546,9 +546,9 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 	}
 	sweeps := []sweep{
 		{"wall_loss_pct", "wall loss (%)", []string{"--label", "wall_loss_pct", "--features", "install_year,pressure_kpa,soil_moisture",
-			"--model", "ridge", "--capacity", "1,2,3,4,5,6,7,8", "--metric", "rmse", "--target", "2.4", "--bootstrap", "200"}, "estimate_wall_loss.svg"},
+			"--model", "ridge", "--capacity", "1,2,3,4,5,6,7,8", "--metric", "rmse", "--target", "5.0", "--bootstrap", "200"}, "estimate_wall_loss.svg"},
 		{"repaired_365d", "repair within 365 days", []string{"--label", "repaired_365d", "--features", "wall_loss_pct,prior_breaks",
-			"--model", "logistic", "--capacity", "1,2,3", "--metric", "logloss", "--target", "0.3", "--bootstrap", "200"}, "estimate_repair.svg"},
+			"--model", "logistic", "--capacity", "1,2,3", "--metric", "logloss", "--target", "0.29", "--bootstrap", "200"}, "estimate_repair.svg"},
 	}
 	for _, sw := range sweeps {
 		var out, errb strings.Builder
@@ -557,41 +557,52 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
 		}
 		var r struct {
-			Metric       string             `json:"metric"`
-			TrainRows    int                `json:"train_rows"`
-			BestCapacity *float64           `json:"best_capacity"`
-			BestNStar    *estimate.Interval `json:"best_nstar"`
-			BestAt       []estimate.SizeBest
-			Verdict      string `json:"verdict"`
+			Metric       string              `json:"metric"`
+			Model        string              `json:"model"`
+			TrainRows    int                 `json:"train_rows"`
+			BestCapacity *float64            `json:"best_capacity"`
+			BestNStar    *estimate.Interval  `json:"best_nstar"`
+			BestAt       []estimate.SizeBest `json:"best_at_size"`
+			Capacities   []curveCapacity     `json:"capacities"`
 		}
 		if err := json.Unmarshal([]byte(out.String()), &r); err != nil {
 			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
 		}
-		fmt.Fprintf(w, "estimate, %s: %s\n", sw.title, planSentences(r.Metric, r.TrainRows, r.BestCapacity, r.BestNStar, sw.args))
-		fmt.Fprintf(w, "  plot: %s\n", filepath.Join(dir, sw.plot))
+		var target string
+		for i := 0; i+1 < len(sw.args); i++ {
+			if sw.args[i] == "--target" {
+				target = sw.args[i+1]
+			}
+		}
+		var unreach []string
+		for _, c := range r.Capacities {
+			if c.Reachable != nil && !*c.Reachable {
+				unreach = append(unreach, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
+			}
+		}
+		fmt.Fprintf(w, "estimate, %s: ", sw.title)
+		lab := func(c float64) string { return estimate.CapacityLabel(r.Model, c) }
+		switch {
+		case r.BestNStar == nil:
+			fmt.Fprintf(w, "no capacity tried reaches %s %s; more data will not get there, more capacity or better features might.", r.Metric, target)
+		case r.BestNStar.Method == "measured" || r.BestNStar.Est <= float64(r.TrainRows):
+			fmt.Fprintf(w, "%s %s is within reach with the %d training rows in hand (%s, from about %.0f rows).", r.Metric, target, r.TrainRows, lab(*r.BestCapacity), math.Ceil(r.BestNStar.Est))
+		default:
+			ns := r.BestNStar
+			fmt.Fprintf(w, "%s %s needs about %.0f training rows with %s (%s %g%% interval %.0f to %.0f), %.0f× the %d in hand.",
+				r.Metric, target, math.Ceil(ns.Est), lab(*r.BestCapacity), ns.Method, 95.0, math.Ceil(ns.Lo), math.Ceil(ns.Hi), ns.Est/float64(r.TrainRows), r.TrainRows)
+			if ns.Est > 10*float64(r.TrainRows) {
+				fmt.Fprint(w, " That is far beyond the measured sizes: a rough guide only.")
+			}
+		}
+		if len(unreach) > 0 && r.BestNStar != nil {
+			fmt.Fprintf(w, " With degree %s the curve levels off above the target: more data will not get there.", strings.Join(unreach, ", "))
+		}
+		if n := len(r.BestAt); n > 0 {
+			fmt.Fprintf(w, " Best now (n = %d): %s.", r.BestAt[n-1].Size, lab(r.BestAt[n-1].Capacity))
+		}
+		fmt.Fprintf(w, "\n  plot: %s\n", filepath.Join(dir, sw.plot))
 	}
 	fmt.Fprintf(w, "  %s\n", estimate.Caution)
 	return nil
-}
-
-// planSentences is the demo's short answer for one sweep.
-func planSentences(metric string, trainRows int, bestCap *float64, nstar *estimate.Interval, args []string) string {
-	target, model := "", ""
-	for i := 0; i+1 < len(args); i++ {
-		switch args[i] {
-		case "--target":
-			target = args[i+1]
-		case "--model":
-			model = args[i+1]
-		}
-	}
-	if bestCap == nil || nstar == nil {
-		return fmt.Sprintf("no capacity tried reaches %s %s; more data will not get there, more capacity (or better features) might.", metric, target)
-	}
-	lab := estimate.CapacityLabel(model, *bestCap)
-	if nstar.Method == "measured" || nstar.Est <= float64(trainRows) {
-		return fmt.Sprintf("%s %s is within reach with the %d training rows in hand (%s, n* ≈ %s).", metric, target, trainRows, lab, g4(math.Ceil(nstar.Est)))
-	}
-	return fmt.Sprintf("%s %s needs about %s training rows with %s (%s interval %s to %s), against %d in hand.",
-		metric, target, g4(math.Ceil(nstar.Est)), lab, nstar.Method, g4(math.Ceil(nstar.Lo)), g4(math.Ceil(nstar.Hi)), trainRows)
 }

@@ -376,15 +376,61 @@ func profRender(kind string, f float64) any {
 	return f
 }
 
+// profVal is one conforming value as an ordering statistic, with its input line.
+type profVal struct {
+	x    float64
+	line int64
+}
+
+type profBad struct {
+	n     int64
+	lines []int64
+}
+
+// typedPass streams a column once and returns its conforming values (as numbers) with their
+// lines, and its nonconforming values with counts and first lines.
+func typedPass(ctx context.Context, conn *sql.Conn, t, q, kind string) (vals []profVal, bads map[string]*profBad, nonMissing int64, err error) {
+	rows, err := conn.QueryContext(ctx, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`)
+	if err != nil {
+		return nil, nil, 0, err
+	}
+	defer rows.Close()
+	bads = map[string]*profBad{}
+	for rows.Next() {
+		var line int64
+		var v any
+		if err := rows.Scan(&line, &v); err != nil {
+			return nil, nil, 0, err
+		}
+		nonMissing++
+		if f, ok := profScalar(kind, v); ok {
+			vals = append(vals, profVal{f, line})
+			continue
+		}
+		key := cellText(v)
+		b := bads[key]
+		if b == nil {
+			if len(bads) >= 10000 { // bound memory on pathological columns
+				key = "(other values)"
+			}
+			if b = bads[key]; b == nil {
+				b = &profBad{}
+				bads[key] = b
+			}
+		}
+		b.n++
+		if len(b.lines) < maxExampleLines {
+			b.lines = append(b.lines, line)
+		}
+	}
+	return vals, bads, nonMissing, rows.Err()
+}
+
+// profileColumn profiles one column with one streaming pass for typed columns and two or
+// three for TEXT columns (hashes, then the strings shown, then numbers if it holds numbers).
 func profileColumn(ctx context.Context, conn *sql.Conn, t string, nrows int64, c profColumn) (ColumnProfile, []ProfileFinding, error) {
 	q := profQuote(c.name)
 	cp := ColumnProfile{Position: c.pos, Name: c.name, LogicalType: c.logical, SQLType: c.sqlType, Rows: nrows, Top: []ValueCount{}}
-	var nonMissing, textValues int64
-	err := conn.QueryRowContext(ctx, `SELECT count(`+q+`), count(DISTINCT `+q+`), coalesce(sum(typeof(`+q+`) = 'text'), 0) FROM `+t).Scan(&nonMissing, &cp.Distinct, &textValues)
-	if err != nil {
-		return cp, nil, err
-	}
-	cp.Missing = nrows - nonMissing
 	var fs []ProfileFinding
 	add := func(f ProfileFinding) {
 		f.Column = c.name
@@ -393,100 +439,104 @@ func profileColumn(ctx context.Context, conn *sql.Conn, t string, nrows int64, c
 		}
 		fs = append(fs, f)
 	}
-
-	// Kind and conformity: declared kind for typed columns; for TEXT columns, whatever at
-	// least ConformityShare of the values parse as.
 	cp.Kind = kindOfLogical(c.logical)
-	if nonMissing == 0 {
-		cp.Kind = kindEmpty
-	} else if cp.Kind == kindText && textValues > 0 {
-		var nNum, nDate, nTS int64
-		rows, err := conn.QueryContext(ctx, `SELECT `+q+`, count(*) FROM `+t+` WHERE `+q+` IS NOT NULL GROUP BY 1`)
-		if err != nil {
+	var (
+		nonMissing int64
+		vals       []profVal
+		bads       map[string]*profBad
+		ps         *profScan
+		fetchedV   map[uint64]fetched
+		err        error
+	)
+	if cp.Kind == kindText {
+		// TEXT: hash pass (distinct, top values, case variants, what the values parse as).
+		if ps, err = scanColumn(ctx, conn, t, q, true); err != nil {
 			return cp, nil, err
 		}
-		for rows.Next() {
-			var v any
-			var n int64
-			if err := rows.Scan(&v, &n); err != nil {
-				rows.Close()
-				return cp, nil, err
-			}
-			if _, ok := profScalar(kindNumber, v); ok {
-				nNum += n
-			} else if _, ok := profScalar(kindDate, v); ok {
-				nDate += n
-			} else if _, ok := profScalar(kindTimestamp, v); ok {
-				nTS += n
-			}
-		}
-		rows.Close()
-		if err := rows.Err(); err != nil {
-			return cp, nil, err
-		}
+		nonMissing = ps.nonMissing
+		cp.Distinct = ps.distinct
 		switch share := float64(nonMissing) * ConformityShare; {
-		case float64(nNum) >= share:
+		case nonMissing == 0:
+		case float64(ps.nNum) >= share:
 			cp.Kind = kindNumber
-		case float64(nDate) >= share:
+		case float64(ps.nDate) >= share:
 			cp.Kind = kindDate
-		case float64(nTS) >= share:
+		case float64(ps.nTS) >= share:
 			cp.Kind = kindTimestamp
 		}
-	}
-
-	// One pass over the values: the ordering statistics of the conforming ones, and the
-	// nonconforming values with their lines.
-	var xs []float64
-	type bad struct {
-		n     int64
-		lines []int64
-	}
-	bads := map[string]*bad{}
-	if cp.Kind != kindEmpty && cp.Kind != kindText {
-		rows, err := conn.QueryContext(ctx, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`)
-		if err != nil {
+		want := map[uint64]bool{}
+		for _, tc := range ps.top {
+			want[tc.h] = true
+		}
+		for _, cs := range ps.caseExamples {
+			for _, m := range cs.members {
+				want[m.h] = true
+			}
+		}
+		if fetchedV, err = fetchValues(ctx, conn, t, q, want); err != nil {
 			return cp, nil, err
 		}
-		xs = make([]float64, 0, nonMissing)
-		for rows.Next() {
-			var line int64
-			var v any
-			if err := rows.Scan(&line, &v); err != nil {
-				rows.Close()
+		for _, tc := range ps.top {
+			cp.Top = append(cp.Top, ValueCount{Value: fetchedV[tc.h].value, Count: tc.n})
+		}
+		if cp.Kind != kindText {
+			if vals, bads, _, err = typedPass(ctx, conn, t, q, cp.Kind); err != nil {
 				return cp, nil, err
 			}
-			if f, ok := profScalar(cp.Kind, v); ok {
-				xs = append(xs, f)
-				continue
-			}
-			key := cellText(v)
-			b := bads[key]
-			if b == nil {
-				if len(bads) >= 10000 { // bound memory on pathological columns
-					key = "(other values)"
-					if b = bads[key]; b == nil {
-						b = &bad{}
-						bads[key] = b
-					}
-				} else {
-					b = &bad{}
-					bads[key] = b
-				}
-			}
-			b.n++
-			if len(b.lines) < maxExampleLines {
-				b.lines = append(b.lines, line)
-			}
 		}
-		rows.Close()
-		if err := rows.Err(); err != nil {
+	} else {
+		if vals, bads, nonMissing, err = typedPass(ctx, conn, t, q, cp.Kind); err != nil {
 			return cp, nil, err
 		}
-		cp.Conforming = int64(len(xs))
+	}
+	if nonMissing == 0 {
+		cp.Kind = kindEmpty
+	}
+	cp.Missing = nrows - nonMissing
+	slices.SortFunc(vals, func(a, b profVal) int {
+		if a.x != b.x {
+			if a.x < b.x {
+				return -1
+			}
+			return 1
+		}
+		return int(a.line - b.line)
+	})
+	if ps == nil {
+		// Typed column: distinct and top values from the sorted values (and the odd ones).
+		var top []ValueCount
+		for i := 0; i < len(vals); {
+			j := i + 1
+			for j < len(vals) && vals[j].x == vals[i].x {
+				j++
+			}
+			cp.Distinct++
+			top = append(top, ValueCount{Value: profTopValue(c.logical, cp.Kind, vals[i].x), Count: int64(j - i)})
+			if len(top) > 64 {
+				sortValueCounts(top)
+				top = top[:5]
+			}
+			i = j
+		}
+		for k, b := range bads {
+			cp.Distinct++
+			top = append(top, ValueCount{Value: k, Count: b.n})
+		}
+		sortValueCounts(top)
+		if len(top) > 5 {
+			top = top[:5]
+		}
+		cp.Top = append(cp.Top, top...)
+	}
+	sortValueCounts(cp.Top)
+	if cp.Kind != kindText && cp.Kind != kindEmpty {
+		cp.Conforming = int64(len(vals))
 		cp.Nonconforming = nonMissing - cp.Conforming
 	} else {
 		cp.Conforming = nonMissing
 	}
+
+	// Type conformity: the values that are not of the column's kind, with their lines.
 	if cp.Nonconforming > 0 {
 		keys := make([]string, 0, len(bads))
 		for k := range bads {
@@ -531,27 +581,8 @@ func profileColumn(ctx context.Context, conn *sql.Conn, t string, nrows int64, c
 			Message: fmt.Sprintf("%d of %d values (%.1f%%) are missing (%s)", cp.Missing, nrows, 100*float64(cp.Missing)/float64(nrows), linesText(ex.Lines, cp.Missing))})
 	}
 
-	// Top values (all kinds), constant and near-constant.
-	if nonMissing > 0 {
-		rows, err := conn.QueryContext(ctx, `SELECT `+q+`, count(*) FROM `+t+` WHERE `+q+` IS NOT NULL GROUP BY 1 ORDER BY 2 DESC, 1 LIMIT 5`)
-		if err != nil {
-			return cp, nil, err
-		}
-		for rows.Next() {
-			var vc ValueCount
-			if err := rows.Scan(&vc.Value, &vc.Count); err != nil {
-				rows.Close()
-				return cp, nil, err
-			}
-			if b, ok := vc.Value.([]byte); ok {
-				vc.Value = string(b)
-			}
-			cp.Top = append(cp.Top, vc)
-		}
-		rows.Close()
-		if err := rows.Err(); err != nil {
-			return cp, nil, err
-		}
+	// Constant, near-constant, identifier-like.
+	if nonMissing > 0 && len(cp.Top) > 0 {
 		if cp.Distinct == 1 {
 			add(ProfileFinding{Check: "constant", Severity: SeverityWarn, Count: nonMissing, Examples: []Example{{Value: cp.Top[0].Value, Count: nonMissing}},
 				Message: fmt.Sprintf("every non-missing value is %s", cellText(cp.Top[0].Value))})
@@ -566,8 +597,11 @@ func profileColumn(ctx context.Context, conn *sql.Conn, t string, nrows int64, c
 	}
 
 	// Ordering statistics of the conforming values.
-	if len(xs) > 0 {
-		slices.Sort(xs)
+	if len(vals) > 0 {
+		xs := make([]float64, len(vals))
+		for i, v := range vals {
+			xs[i] = v.x
+		}
 		cp.Min, cp.Max = profRender(cp.Kind, xs[0]), profRender(cp.Kind, xs[len(xs)-1])
 		if cp.Kind == kindNumber || cp.Kind == kindBoolean {
 			m, s := MeanSD(xs)
@@ -594,73 +628,50 @@ func profileColumn(ctx context.Context, conn *sql.Conn, t string, nrows int64, c
 			}
 			cp.Outliers, cp.FarOutliers = &nOut, &nFar
 			if nOut > 0 {
-				f, err := profOutlierFinding(ctx, conn, t, q, cp, inner, nOut, nFar, xs)
-				if err != nil {
-					return cp, nil, err
-				}
-				add(f)
+				add(profOutlierFinding(cp, inner, nOut, nFar, vals, Quantile(xs, 0.5)))
 			}
 		}
 	}
 
 	// Values differing only in ASCII case or surrounding whitespace.
-	if textValues > 0 {
-		f, ok, err := profCaseVariants(ctx, conn, t, q)
-		if err != nil {
-			return cp, nil, err
-		}
-		if ok {
-			add(f)
-		}
+	if ps != nil && ps.caseSets > 0 {
+		add(caseFinding(ps, fetchedV))
 	}
 	return cp, fs, nil
 }
 
-// profOutlierFinding lists the most extreme outliers (farthest from the median first).
-func profOutlierFinding(ctx context.Context, conn *sql.Conn, t, q string, cp ColumnProfile, inner Fences, nOut, nFar int64, sorted []float64) (ProfileFinding, error) {
-	med := Quantile(sorted, 0.5)
-	type hit struct {
-		x    float64
-		line int64
-		raw  any
+// profTopValue renders a typed column's value for its top-values list.
+func profTopValue(logical, kind string, x float64) any {
+	if logical == "INTEGER" || logical == "BOOLEAN" {
+		return int64(x)
 	}
-	var hits []hit
-	rows, err := conn.QueryContext(ctx, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`)
-	if err != nil {
-		return ProfileFinding{}, err
-	}
-	for rows.Next() {
-		var line int64
-		var v any
-		if err := rows.Scan(&line, &v); err != nil {
-			rows.Close()
-			return ProfileFinding{}, err
-		}
-		if x, ok := profScalar(cp.Kind, v); ok && inner.Outside(x) {
-			hits = append(hits, hit{x, line, v})
-			if len(hits) > 4*maxExamples { // keep the most extreme, bounded
-				sort.SliceStable(hits, func(i, j int) bool { return math.Abs(hits[i].x-med) > math.Abs(hits[j].x-med) })
-				hits = hits[:maxExamples]
-			}
-		}
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return ProfileFinding{}, err
-	}
-	sort.SliceStable(hits, func(i, j int) bool { return math.Abs(hits[i].x-med) > math.Abs(hits[j].x-med) })
-	if len(hits) > maxExamples {
-		hits = hits[:maxExamples]
-	}
+	return profRender(kind, x)
+}
+
+// profOutlierFinding lists the most extreme outliers (farthest from the median first),
+// taken from both ends of the sorted values.
+func profOutlierFinding(cp ColumnProfile, inner Fences, nOut, nFar int64, sorted []profVal, med float64) ProfileFinding {
 	var ex []Example
 	var parts []string
-	for _, h := range hits {
-		v := h.raw
-		if b, ok := v.([]byte); ok {
-			v = string(b)
+	i, j := 0, len(sorted)-1
+	for len(ex) < maxExamples && i <= j {
+		var v profVal
+		lo, hi := sorted[i], sorted[j]
+		loOut, hiOut := inner.Outside(lo.x), inner.Outside(hi.x)
+		switch {
+		case loOut && (!hiOut || med-lo.x >= hi.x-med):
+			v = lo
+			i++
+		case hiOut:
+			v = hi
+			j--
+		default:
+			i = j + 1
+			continue
 		}
-		ex = append(ex, Example{Value: v, Lines: []int64{h.line}})
-		parts = append(parts, fmt.Sprintf("%s (line %d)", cellText(v), h.line))
+		shown := profTopValue(cp.LogicalType, cp.Kind, v.x)
+		ex = append(ex, Example{Value: shown, Lines: []int64{v.line}})
+		parts = append(parts, fmt.Sprintf("%s (line %d)", cellText(shown), v.line))
 	}
 	sev := SeverityInfo
 	far := ""
@@ -670,51 +681,67 @@ func profOutlierFinding(ctx context.Context, conn *sql.Conn, t, q string, cp Col
 	}
 	return ProfileFinding{Check: "outliers", Severity: sev, Count: nOut, Examples: ex,
 		Message: fmt.Sprintf("%d values outside Tukey's fences %s .. %s (1.5 IQR)%s; most extreme: %s",
-			nOut, statText(profRender(cp.Kind, inner.Low)), statText(profRender(cp.Kind, inner.High)), far, strings.Join(parts, ", "))}, nil
+			nOut, statText(profRender(cp.Kind, inner.Low)), statText(profRender(cp.Kind, inner.High)), far, strings.Join(parts, ", "))}
 }
 
-// profCaseVariants finds text values that are equal after ASCII lower-casing and trimming
+// caseFinding reports sets of values equal after ASCII lower-casing and trimming
 // surrounding whitespace.
-func profCaseVariants(ctx context.Context, conn *sql.Conn, t, q string) (ProfileFinding, bool, error) {
-	norm := `lower(trim(` + q + `, ' ' || char(9, 10, 13)))`
-	var groups, rowsIn int64
-	// rowsIn counts the rows that do not carry their set's most common spelling.
-	err := conn.QueryRowContext(ctx, `SELECT count(*), coalesce(sum(m), 0) FROM (SELECT sum(n) - max(n) AS m FROM
-		(SELECT `+norm+` AS k, count(*) AS n FROM `+t+` WHERE typeof(`+q+`) = 'text' GROUP BY k, `+q+`) GROUP BY k HAVING count(*) > 1)`).Scan(&groups, &rowsIn)
-	if err != nil || groups == 0 {
-		return ProfileFinding{}, false, err
-	}
-	rows, err := conn.QueryContext(ctx, `SELECT `+norm+` AS k, `+q+`, count(*), min(ss_line) FROM `+t+` WHERE typeof(`+q+`) = 'text' AND `+norm+` IN
-		(SELECT `+norm+` FROM `+t+` WHERE typeof(`+q+`) = 'text' GROUP BY 1 HAVING count(DISTINCT `+q+`) > 1 ORDER BY count(*) DESC, 1 LIMIT `+strconv.Itoa(maxExamples)+`)
-		GROUP BY 1, 2 ORDER BY 1, 3 DESC, 2`)
-	if err != nil {
-		return ProfileFinding{}, false, err
-	}
-	defer rows.Close()
+func caseFinding(ps *profScan, vals map[uint64]fetched) ProfileFinding {
 	var ex []Example
-	byKey := map[string][]string{}
-	var keys []string
-	for rows.Next() {
-		var k, v string
-		var n, line int64
-		if err := rows.Scan(&k, &v, &n, &line); err != nil {
-			return ProfileFinding{}, false, err
-		}
-		if _, ok := byKey[k]; !ok {
-			keys = append(keys, k)
-		}
-		byKey[k] = append(byKey[k], fmt.Sprintf("%q ×%d", v, n))
-		ex = append(ex, Example{Value: v, Count: n, Lines: []int64{line}, Note: "group " + strconv.Quote(k)})
-	}
-	if err := rows.Err(); err != nil {
-		return ProfileFinding{}, false, err
-	}
 	var parts []string
-	for _, k := range keys {
-		parts = append(parts, strings.Join(byKey[k], " / "))
+	sets := slices.Clone(ps.caseExamples)
+	normOf := func(cs caseSet) string { return profNorm(cellText(vals[cs.members[0].h].value)) }
+	slices.SortStableFunc(sets, func(a, b caseSet) int {
+		if a.rows != b.rows {
+			if a.rows > b.rows {
+				return -1
+			}
+			return 1
+		}
+		return strings.Compare(normOf(a), normOf(b))
+	})
+	for _, cs := range sets {
+		vcs := make([]ValueCount, 0, len(cs.members))
+		first := map[any]int64{}
+		for _, m := range cs.members {
+			f := vals[m.h]
+			vcs = append(vcs, ValueCount{Value: f.value, Count: m.n})
+			first[f.value] = f.line
+		}
+		sortValueCounts(vcs)
+		var spell []string
+		for _, vc := range vcs {
+			spell = append(spell, fmt.Sprintf("%q ×%d", cellText(vc.Value), vc.Count))
+			ex = append(ex, Example{Value: vc.Value, Count: vc.Count, Lines: []int64{first[vc.Value]}, Note: "set " + strconv.Quote(profNorm(cellText(vc.Value)))})
+		}
+		parts = append(parts, strings.Join(spell, " / "))
 	}
-	return ProfileFinding{Check: "case_variants", Severity: SeverityWarn, Count: rowsIn, Examples: ex,
-		Message: fmt.Sprintf("%d rows spell a value differently from its most common form, by case or surrounding whitespace only (%d sets): %s", rowsIn, groups, strings.Join(parts, "; "))}, true, nil
+	more := ""
+	if n := ps.caseSets - int64(len(ps.caseExamples)); n > 0 {
+		more = fmt.Sprintf("; and %d more sets", n)
+	}
+	return ProfileFinding{Check: "case_variants", Severity: SeverityWarn, Count: ps.caseRows, Examples: ex,
+		Message: fmt.Sprintf("%d rows spell a value differently from its most common form, by case or surrounding whitespace only (%d sets): %s%s", ps.caseRows, ps.caseSets, strings.Join(parts, "; "), more)}
+}
+
+// sortValueCounts orders by count descending, then value (numbers numerically, before text).
+func sortValueCounts(v []ValueCount) {
+	sort.SliceStable(v, func(i, j int) bool {
+		if v[i].Count != v[j].Count {
+			return v[i].Count > v[j].Count
+		}
+		a, aok := profScalar(kindNumber, v[i].Value)
+		b, bok := profScalar(kindNumber, v[j].Value)
+		_, ai := v[i].Value.(string)
+		_, bi := v[j].Value.(string)
+		if aok && bok && !ai && !bi {
+			return a < b
+		}
+		if ai != bi {
+			return !ai
+		}
+		return cellText(v[i].Value) < cellText(v[j].Value)
+	})
 }
 
 // profLinesWhere returns up to maxExampleLines lines of rows matching cond.

@@ -10,7 +10,18 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 )
+
+// traceHook, when set (by benchmarks), receives how long each step of Run took. Timings
+// never enter results.
+var traceHook func(step string, d time.Duration)
+
+func trace(step string, since time.Time) {
+	if traceHook != nil {
+		traceHook(step, time.Since(since))
+	}
+}
 
 // Options are one audit's settings, as the command resolved them.
 type Options struct {
@@ -129,6 +140,9 @@ type audit struct {
 	workers   int
 	// significant digits to load rounded forms for: REAL columns, and all numeric columns
 	roundReal, roundAll []int
+	needed              map[string]bool // columns the selected checks read
+	useDigest           bool            // load ss_digest
+	digest              []int64
 }
 
 func (a *audit) p(name string) float64 {
@@ -180,20 +194,45 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 		}
 		run = append(run, c)
 	}
+	a.needed = map[string]bool{}
+	need := func(cols ...string) {
+		for _, c := range cols {
+			a.needed[c] = true
+		}
+	}
+	if a.label != "" {
+		need(a.label)
+	}
+	need(a.text...)
 	for _, c := range run {
 		switch c {
 		case ExactDuplicate, LabelConflict, NearDuplicateNumeric:
 			a.check = ExactDuplicate
-			a.roundReal = append(a.roundReal, int(a.p("digits")))
+			k := a.featureKey()
+			if k.digest {
+				a.useDigest = true
+			} else {
+				need(a.feature...)
+				a.roundReal = append(a.roundReal, k.realDig)
+			}
+		case LeakingFeature, DistributionShift:
+			need(a.feature...)
+		case SharedEntity:
+			need(a.entity...)
+		case TimeOverlap:
+			need(a.timeCol)
+			need(a.entity...)
 		}
 		if c == NearDuplicateNumeric {
 			a.check = c
 			a.roundAll = append(a.roundAll, int(a.p("digits")))
 		}
 	}
+	t0 := time.Now()
 	if err := a.loadRows(); err != nil {
 		return nil, err
 	}
+	trace("load", t0)
 	if err := a.validateData(run); err != nil {
 		return nil, err
 	}
@@ -210,7 +249,10 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 	for _, c := range run {
 		a.check = c
 		start := len(a.found)
-		if err := c.run(a); err != nil {
+		t1 := time.Now()
+		err := c.run(a)
+		trace(c.Name, t1)
+		if err != nil {
 			return nil, fmt.Errorf("audit %s: check %s: %w", a.split, c.Name, err)
 		}
 		for i := start; i < len(a.found); i++ {
@@ -221,6 +263,8 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 	rep.Findings = a.found
 	rep.Queries = a.queries
 	rep.Resolved = a.resolved(rep)
+	t2 := time.Now()
+	defer trace("write", t2)
 	if err := a.write(qa, rep); err != nil {
 		return nil, fmt.Errorf("audit %s: %w", a.split, err)
 	}
@@ -444,12 +488,23 @@ func (a *audit) loadRows() error {
 	}
 	var sel strings.Builder
 	sel.WriteString(`SELECT r.row_id, r.side`)
+	if a.useDigest {
+		sel.WriteString(", t.ss_digest")
+	}
 	a.data = map[string]*column{}
-	cols := make([]*column, len(a.cols))
-	for i, c := range a.cols {
+	var cols []*column
+	for _, c := range a.cols {
+		if !a.needed[c.Name] {
+			continue
+		}
 		fmt.Fprintf(&sel, ", t.%s", quoteIdent(c.Name))
-		cols[i] = &column{colInfo: c}
-		a.data[c.Name] = cols[i]
+		col := &column{colInfo: c}
+		cols = append(cols, col)
+		a.data[c.Name] = col
+	}
+	first := 2 // first user column in the result
+	if a.useDigest {
+		first = 3
 	}
 	type rnd struct {
 		col *column
@@ -487,7 +542,7 @@ func (a *audit) loadRows() error {
 	defer rows.Close()
 	report, end := a.progress("audit: reading rows")
 	defer end()
-	vals := make([]any, len(a.cols)+2+len(rounds))
+	vals := make([]any, first+len(cols)+len(rounds))
 	ptrs := make([]any, len(vals))
 	for i := range vals {
 		ptrs[i] = &vals[i]
@@ -504,11 +559,15 @@ func (a *audit) loadRows() error {
 		}
 		a.rowID = append(a.rowID, id)
 		a.side = append(a.side, si)
+		if a.useDigest {
+			d, _ := vals[2].(int64)
+			a.digest = append(a.digest, d)
+		}
 		for i, c := range cols {
-			c.add(vals[i+2])
+			c.add(vals[first+i])
 		}
 		for k, r := range rounds {
-			r.col.rounded[r.d] = append(r.col.rounded[r.d], asString(vals[len(cols)+2+k]))
+			r.col.rounded[r.d] = append(r.col.rounded[r.d], asString(vals[first+len(cols)+k]))
 		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)

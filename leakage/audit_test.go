@@ -261,3 +261,37 @@ func TestValidate_All(t *testing.T) {
 		t.Error("want errors for a bad catalog")
 	}
 }
+
+func TestRun_ExactDuplicateRawAndDigest(t *testing.T) {
+	f := pipesFixture()
+	f.rows[34] = append([]any(nil), f.rows[33]...) // rows 34 and 35 now identical in every column
+	path := f.create(t)
+	// Raw comparison without entity columns: every column is a feature, so the stored
+	// ss_digest is the key; row 33's material differs in spacing and case, so 3/33 is no
+	// longer a duplicate, but 34/35 are.
+	rep, err := runAudit(t, path, Options{Split: "naive", Entity: []string{}, Checks: []string{"exact_duplicate"}, Params: map[string]float64{"exact_duplicate.normalize": 0}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if g := fmt.Sprint(summarize(rep, "exact_duplicate")); g != "[{exact_duplicate within holdout warn holdout:[34 35]}]" {
+		t.Errorf("digest path: %v", g)
+	}
+	for name, n := range replay(t, path, "naive") {
+		if n != 0 {
+			t.Errorf("%s: %d rows", name, n)
+		}
+	}
+	q := replayText(t, path, "exact_duplicate.across")
+	if !strings.Contains(q, "t.ss_digest AS key") {
+		t.Errorf("digest path query does not group ss_digest:\n%s", q)
+	}
+	// Raw with the default entity (segment) excluded: 34/35 match; 3/33 differ in material's
+	// spelling and 8/38 in failed (a feature here: no --label).
+	rep, err = runAudit(t, path, Options{Split: "naive", Checks: []string{"exact_duplicate"}, Params: map[string]float64{"exact_duplicate.normalize": 0}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if g := fmt.Sprint(summarize(rep, "exact_duplicate")); g != "[{exact_duplicate within holdout warn holdout:[34 35]}]" || !strings.Contains(replayText(t, path, "exact_duplicate.across"), "printf('%.16e'") {
+		t.Errorf("raw path: %v", g)
+	}
+}

@@ -4,16 +4,39 @@ import (
 	"context"
 	"fmt"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strconv"
 	"sync"
 	"testing"
+	"time"
 
 	"splitsmith/internal/store"
 )
 
 var (
-	bigOnce sync.Once
-	bigPath string
+	bigOnce  sync.Once
+	bigPath  string
+	benchDir string
+	// benchRows is the size of the benchmark table (SPLITSMITH_BENCH_ROWS overrides 1,000,000
+	// for profiling).
+	benchRows = envInt("SPLITSMITH_BENCH_ROWS", 1_000_000)
 )
+
+func envInt(name string, def int) int {
+	if v, err := strconv.Atoi(os.Getenv(name)); err == nil && v > 0 {
+		return v
+	}
+	return def
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if benchDir != "" {
+		os.RemoveAll(benchDir)
+	}
+	os.Exit(code)
+}
 
 // bigFixture is a 1,000,000-row table of 9 user columns (invented pipe-inspection-like
 // values; 1% of rows planted as copies of earlier rows) split 80/20 at random, built once.
@@ -24,7 +47,7 @@ func bigFixture(b *testing.B) string {
 			cols: []fixCol{{"segment", "TEXT", "TEXT"}, {"d1", "REAL", "REAL"}, {"d2", "REAL", "REAL"}, {"d3", "REAL", "REAL"}, {"d4", "REAL", "REAL"},
 				{"i1", "INTEGER", "INTEGER"}, {"i2", "INTEGER", "INTEGER"}, {"material", "TEXT", "TEXT"}, {"code", "TEXT", "TEXT"}}}
 		mats := []string{"cast iron", "PVC", "ductile", "steel", "asbestos cement"}
-		const n = 1_000_000
+		n := benchRows
 		for i := 0; i < n; i++ {
 			var row []any
 			if i > 1000 && r.IntN(100) == 0 {
@@ -40,19 +63,30 @@ func bigFixture(b *testing.B) string {
 			}
 			f.sides = append(f.sides, side)
 		}
-		bigPath = f.create(b)
+		dir, err := os.MkdirTemp("", "leakage-bench-")
+		if err != nil {
+			b.Fatal(err)
+		}
+		benchDir = dir
+		bigPath = f.createAt(b, filepath.Join(dir, "big.db"))
 	})
 	return bigPath
 }
 
-func benchAudit(b *testing.B, checks ...string) {
+func benchAudit(b *testing.B, params map[string]float64, checks ...string) {
 	if !benchSelected("1M") {
 		b.Skip("builds a 1,000,000-row database: run with -bench 1M")
 	}
+	var entity []string
+	if params != nil {
+		entity = []string{} // every column a feature: the ss_digest path
+	}
 	path := bigFixture(b)
+	traceHook = func(step string, d time.Duration) { b.Logf("%s: %v", step, d) }
+	defer func() { traceHook = nil }()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
-		if _, err := runAudit(b, path, Options{Split: "s", Checks: checks}); err != nil {
+		if _, err := runAudit(b, path, Options{Split: "s", Checks: checks, Params: params, Entity: entity}); err != nil {
 			b.Fatal(err)
 		}
 	}
@@ -60,10 +94,16 @@ func benchAudit(b *testing.B, checks ...string) {
 
 // BenchmarkAudit_ExactDuplicate1M: exact duplicates across sides over 1,000,000 rows
 // (target < 1.5 s): read, normalise, hash 9 columns, group, store findings and queries.
-func BenchmarkAudit_ExactDuplicate1M(b *testing.B) { benchAudit(b, "exact_duplicate") }
+func BenchmarkAudit_ExactDuplicate1M(b *testing.B) { benchAudit(b, nil, "exact_duplicate") }
+
+// BenchmarkAudit_ExactDuplicateDigest1M: the same on the stored content digests
+// (exact_duplicate.normalize=0 with no column excluded; target < 1.5 s).
+func BenchmarkAudit_ExactDuplicateDigest1M(b *testing.B) {
+	benchAudit(b, map[string]float64{"exact_duplicate.normalize": 0}, "exact_duplicate")
+}
 
 // BenchmarkAudit_SharedEntity1M: shared entities over 1,000,000 rows (target < 1.5 s).
-func BenchmarkAudit_SharedEntity1M(b *testing.B) { benchAudit(b, "shared_entity") }
+func BenchmarkAudit_SharedEntity1M(b *testing.B) { benchAudit(b, nil, "shared_entity") }
 
 // BenchmarkBaseline_GroupDigest1M is the baseline the targets are set against: SQLite
 // grouping the 1,000,000 stored ss_digest values of the split's rows by side, no index.

@@ -71,9 +71,12 @@ var (
 			"letters lower-cased (as SQLite's lower()); REAL values rounded to `digits` significant digits; INTEGER values exact. " +
 			"A row on both sides lets a model score its own training data (error). Copies within the holdout give those rows " +
 			"extra weight in the holdout metric (warn); copies within a training or other side are listed for information.",
-		Params: []Param{{"digits", exactDigits, "significant digits REAL values are rounded to before comparing (9: tolerance of about 1 part in 10^9)"}},
-		SQL:    "stock",
-		run:    runExactDuplicate,
+		Params: []Param{
+			{"digits", exactDigits, "significant digits REAL values are rounded to before comparing (9: tolerance of about 1 part in 10^9)"},
+			{"normalize", 1, "0: compare stored values as they are (REAL to 17 significant digits, text unchanged); when no column is excluded this groups the content digests stored at ingest (ss_digest), the fast path"},
+		},
+		SQL: "stock",
+		run: runExactDuplicate,
 	}
 	NearDuplicateText = &Check{
 		Name:     "near_duplicate_text",

@@ -38,6 +38,12 @@ func (a *audit) featureKey() keySpec {
 	if v, ok := a.opts.Params["exact_duplicate.digits"]; ok {
 		digits = int(v)
 	}
+	if v, ok := a.opts.Params["exact_duplicate.normalize"]; ok && v == 0 {
+		if len(a.feature) == len(a.cols) {
+			return keySpec{cols: a.feature, digest: true}
+		}
+		return keySpec{cols: a.feature, realDig: 17}
+	}
 	return keySpec{cols: a.feature, normalize: true, realDig: digits}
 }
 
@@ -99,7 +105,7 @@ func runExactDuplicate(a *audit) error {
 		SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY side, key) FROM k WHERE role = 'holdout' AND (side, key) IN (SELECT side, key FROM k WHERE role = 'holdout' GROUP BY side, key HAVING count(*) > 1)`, "within holdout")})
 	a.addQuery(Query{Name: a.queryName("within_other"), Kind: "check",
 		Description: "identical rows repeated within a train or other side; no rows = the stored exact_duplicate findings (within other sides) hold",
-		SQL: a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY side, key) FROM k WHERE role <> 'holdout' AND (side, key) IN (SELECT side, key FROM k WHERE role <> 'holdout' GROUP BY side, key HAVING count(*) > 1)`, "within other sides")})
+		SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY side, key) FROM k WHERE role <> 'holdout' AND (side, key) IN (SELECT side, key FROM k WHERE role <> 'holdout' GROUP BY side, key HAVING count(*) > 1)`, "within other sides")})
 	return nil
 }
 

@@ -37,7 +37,11 @@ func sets() []sqlfn.Set { return []sqlfn.Set{ingest.SQL(), SQL()} }
 
 func (f *fixture) create(t testing.TB) string {
 	t.Helper()
-	path := filepath.Join(t.TempDir(), "fx.db")
+	return f.createAt(t, filepath.Join(t.TempDir(), "fx.db"))
+}
+
+func (f *fixture) createAt(t testing.TB, path string) string {
+	t.Helper()
 	ctx := context.Background()
 	err := store.Update(ctx, path, store.Options{SQL: sets()}, true, store.Run{Command: "fixture"}, func(ctx context.Context, tx *store.Tx) error {
 		return f.write(ctx, tx.Conn, tx.RunID)
@@ -174,4 +178,14 @@ func openRW(t testing.TB, path string) *sql.DB {
 		t.Fatal(err)
 	}
 	return db
+}
+
+func replayText(t testing.TB, path, name string) string {
+	db := openRW(t, path)
+	defer db.Close()
+	var q string
+	if err := db.QueryRow(`SELECT sql FROM ss_audit_queries WHERE name = ?`, name).Scan(&q); err != nil {
+		t.Fatal(err)
+	}
+	return q
 }

@@ -62,11 +62,15 @@ type keySpec struct {
 	normalize bool // text normalised (NormalizeValue); otherwise raw
 	realDig   int  // significant digits for REAL values
 	intDig    int  // significant digits for INTEGER values; 0 = exact
+	digest    bool // the row's stored content digest (ss_digest) is the key
 }
 
 // Each value contributes 'n' when NULL, else 'v' || length(s) || ':' || s, where s is the
 // normalised value; values are joined with '|'. Length-prefixing makes the key unambiguous.
 func (a *audit) keySQL(k keySpec, alias string) string {
+	if k.digest {
+		return alias + ".ss_digest"
+	}
 	if len(k.cols) == 0 {
 		return "''"
 	}
@@ -95,6 +99,12 @@ func (a *audit) keySQL(k keySpec, alias string) string {
 // keys computes every row's key hash (FNV-1a 64 over the same bytes keySQL builds).
 func (a *audit) keys(k keySpec) []uint64 {
 	out := make([]uint64, len(a.rowID))
+	if k.digest {
+		for i, d := range a.digest {
+			out[i] = uint64(d)
+		}
+		return out
+	}
 	cols := make([]*column, len(k.cols))
 	for i, n := range k.cols {
 		cols[i] = a.data[n]

@@ -225,7 +225,7 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		rep.Counts[rep.Changes[i].Kind]++
 	}
 	rep.Intact = len(rep.Changes) == 0
-	if (rep.Counts["removed"] > 0 || rep.Counts["changed"] > 0) && !appendStable(spec) {
+	if rep.Counts["moved"] > 0 && (rep.Counts["removed"] > 0 || rep.Counts["changed"] > 0) && !appendStable(spec) {
 		rep.Notes = append(rep.Notes, fmt.Sprintf("strategy %s is not append-stable (quotas, fraction cut points or balanced folds depend on the whole row set), so rows reported moved may follow from the rows removed or changed", strategyLabel(spec)))
 	}
 	return rep, nil

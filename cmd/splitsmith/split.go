@@ -337,25 +337,74 @@ func sortedKeys(m map[string]int) []string {
 
 // demoSplitStep is the demo's split step: on table pipes, a naive random split (which the
 // audit shows to leak: the same pipe segment on both sides, later inspections in training)
-// and a sound one (grouped by pipe segment, time-ordered with a 90-day gap; each segment is
-// on one side, and no training inspection is within 90 days of the holdout period).
+// and a sound one (grouped by pipe segment, time-ordered with a 90-day gap: each segment is on
+// one side, and no training inspection is within 90 days of the holdout period), then verify.
+// Full outputs go to DIR/split_naive.txt, split_sound.txt and verify_sound.txt.
 func demoSplitStep(ctx context.Context, w io.Writer, db, dir string) error {
-	s := stdio{in: strings.NewReader(""), out: w, err: w}
-	fmt.Fprintln(w, "$ splitsmith split --db "+filepath.Base(db)+" --table pipes --name naive --seed 1")
-	if err := runCLI(ctx, s, "split", "--db", db, "--table", "pipes", "--name", "naive", "--seed", "1", "--replace"); err != nil {
-		return fmt.Errorf("demo split naive: %w", err)
+	s := stdio{in: strings.NewReader(""), out: io.Discard, err: io.Discard}
+	sound := []string{"--sides", "train=0.7,holdout=0.3", "--group", "segment_id", "--time", "inspection_date",
+		"--gap", "90d", "--span", "entity", "--time-invalid", "drop"}
+	steps := []struct {
+		name string
+		args []string
+	}{
+		{"split_naive", []string{"split", "--db", db, "--table", "pipes", "--name", "naive", "--seed", "1", "--replace"}},
+		{"split_sound", append([]string{"split", "--db", db, "--table", "pipes", "--name", "sound", "--seed", "1", "--replace"}, sound...)},
+		{"verify_sound", []string{"verify", "--db", db, "--split", "sound"}},
 	}
-	fmt.Fprintln(w)
-	args := []string{"--table", "pipes", "--name", "sound", "--seed", "1", "--sides", "train=0.7,holdout=0.3",
-		"--group", "segment_id", "--time", "inspection_date", "--gap", "90d", "--span", "entity", "--time-invalid", "drop"}
-	fmt.Fprintln(w, "$ splitsmith split --db "+filepath.Base(db)+" "+strings.Join(args, " "))
-	if err := runCLI(ctx, s, append([]string{"split", "--db", db, "--replace"}, args...)...); err != nil {
-		return fmt.Errorf("demo split sound: %w", err)
+	for _, st := range steps {
+		if err := demoStep(ctx, s, dir, st.name, st.args...); err != nil {
+			return err
+		}
 	}
-	fmt.Fprintln(w)
-	fmt.Fprintln(w, "$ splitsmith verify --db "+filepath.Base(db)+" --split sound")
-	if err := runCLI(ctx, s, "verify", "--db", db, "--split", "sound"); err != nil {
-		return fmt.Errorf("demo verify sound: %w", err)
+	d, err := openRead(ctx, db, true)
+	if err != nil {
+		return err
 	}
+	defer d.Close()
+	conn, err := d.Conn(ctx)
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	for _, name := range []string{"naive", "sound"} {
+		r, err := splits.Read(ctx, conn, name)
+		if err != nil {
+			return err
+		}
+		how := "random by row content"
+		if name == "sound" {
+			how = "grouped by segment_id, time-ordered by inspection_date, 90-day gap"
+		}
+		fmt.Fprintf(w, "split    %s (%s; details: %s):", name, how, filepath.Join(dir, "split_"+name+".txt"))
+		for _, sd := range r.Sides {
+			fmt.Fprintf(w, " %s %d rows (%.3f)", sd.Side, sd.Rows, sd.RowFraction)
+			if sd.Groups != nil {
+				fmt.Fprintf(w, " %d segments", *sd.Groups)
+			}
+			if sd.TimeMin != nil {
+				fmt.Fprintf(w, " %s..%s", *sd.TimeMin, *sd.TimeMax)
+			}
+			fmt.Fprint(w, ";")
+		}
+		fmt.Fprintf(w, " %d dropped", r.TableRows-r.Assigned)
+		if len(r.Dropped) > 0 {
+			var parts []string
+			for _, k := range sortedKeys(r.Dropped) {
+				parts = append(parts, fmt.Sprintf("%s %d", k, r.Dropped[k]))
+			}
+			fmt.Fprintf(w, " (%s)", strings.Join(parts, ", "))
+		}
+		fmt.Fprintln(w)
+	}
+	rep, err := splits.Verify(ctx, conn, "sound")
+	if err != nil {
+		return err
+	}
+	state := "intact (assignment recomputed, digests and seals match)"
+	if !rep.Intact {
+		state = "NOT intact: " + countsText(rep.Counts)
+	}
+	fmt.Fprintf(w, "verify   sound: %s (details: %s)\n", state, filepath.Join(dir, "verify_sound.txt"))
 	return nil
 }

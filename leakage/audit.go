@@ -724,16 +724,8 @@ func (a *audit) addQuery(q Query) {
 
 func (a *audit) write(qa QueryAdder, rep *Report) error {
 	// Order within a check: as the check emitted (each check sorts its own findings).
-	fs, err := a.conn.PrepareContext(a.ctx, `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES(?,?,?,?,?,?,?,?,?,?,?,?,?,?)`)
-	if err != nil {
-		return err
-	}
-	defer fs.Close()
-	rs, err := a.conn.PrepareContext(a.ctx, `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES(?,?,?,?)`)
-	if err != nil {
-		return err
-	}
-	defer rs.Close()
+	fb := &batch{a: a, head: `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES`, width: 14, rows: 64}
+	rb := &batch{a: a, head: `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES`, width: 4, rows: 256}
 	for i, f := range rep.Findings {
 		seq := i + 1
 		var sideA, sideB any
@@ -765,16 +757,22 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 		if err != nil {
 			return err
 		}
-		if _, err := fs.ExecContext(a.ctx, a.auditID, seq, f.Check, string(f.Severity), f.Subject, item, sideA, nA, sideB, nB, score, f.Message, string(ev), query); err != nil {
+		if err := fb.add(a.auditID, seq, f.Check, string(f.Severity), f.Subject, item, sideA, nA, sideB, nB, score, f.Message, string(ev), query); err != nil {
 			return err
 		}
 		for _, s := range f.Sides {
 			for _, r := range s.Rows {
-				if _, err := rs.ExecContext(a.ctx, a.auditID, seq, s.Side, r); err != nil {
+				if err := rb.add(a.auditID, seq, s.Side, r); err != nil {
 					return err
 				}
 			}
 		}
+	}
+	if err := fb.flush(); err != nil {
+		return err
+	}
+	if err := rb.flush(); err != nil {
+		return err
 	}
 	opts, _ := json.Marshal(rep.Resolved)
 	if _, err := a.conn.ExecContext(a.ctx, `UPDATE ss_audits SET options_json=?, errors=?, warnings=?, infos=? WHERE audit_id=?`,
@@ -791,4 +789,49 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 		}
 	}
 	return nil
+}
+
+// batch inserts rows several at a time: one statement per `rows` rows.
+type batch struct {
+	a     *audit
+	head  string
+	width int
+	rows  int
+	args  []any
+	stmt  *sql.Stmt
+}
+
+func (b *batch) add(vals ...any) error {
+	b.args = append(b.args, vals...)
+	if len(b.args) == b.width*b.rows {
+		if b.stmt == nil {
+			st, err := b.a.conn.PrepareContext(b.a.ctx, b.sql(b.rows))
+			if err != nil {
+				return err
+			}
+			b.stmt = st
+		}
+		if _, err := b.stmt.ExecContext(b.a.ctx, b.args...); err != nil {
+			return err
+		}
+		b.args = b.args[:0]
+	}
+	return nil
+}
+
+func (b *batch) sql(n int) string {
+	one := "(" + strings.TrimSuffix(strings.Repeat("?,", b.width), ",") + ")"
+	return b.head + strings.TrimSuffix(strings.Repeat(one+",", n), ",")
+}
+
+func (b *batch) flush() error {
+	if b.stmt != nil {
+		defer b.stmt.Close()
+	}
+	if len(b.args) == 0 {
+		return nil
+	}
+	_, err := b.a.conn.ExecContext(b.a.ctx, b.sql(len(b.args)/b.width), b.args...)
+	b.args = b.args[:0]
+	return err
 }

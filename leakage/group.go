@@ -8,20 +8,42 @@ import (
 func sortStrings(s []string) { sort.Strings(s) }
 
 // entityGroups groups row indexes by the raw value of one column (NULLs left out), in
-// order of first row.
+// order of first row; keys are repr strings.
 func (a *audit) entityGroups(col string) ([]string, map[string][]int32) {
 	c := a.data[col]
 	groups := map[string][]int32{}
 	var order []string
-	for i := range a.rowID {
-		if c.null[i] {
-			continue
+	switch c.SQLType {
+	case "TEXT":
+		idx := map[string]int32{}
+		var members [][]int32
+		for i := range a.rowID {
+			if c.null[i] {
+				continue
+			}
+			g, ok := idx[c.str[i]]
+			if !ok {
+				g = int32(len(members))
+				idx[c.str[i]] = g
+				members = append(members, nil)
+				order = append(order, "t"+c.str[i])
+			}
+			members[g] = append(members[g], int32(i))
 		}
-		k := c.repr(i)
-		if _, ok := groups[k]; !ok {
-			order = append(order, k)
+		for k, m := range members {
+			groups[order[k]] = m
 		}
-		groups[k] = append(groups[k], int32(i))
+	default:
+		for i := range a.rowID {
+			if c.null[i] {
+				continue
+			}
+			k := c.repr(i)
+			if _, ok := groups[k]; !ok {
+				order = append(order, k)
+			}
+			groups[k] = append(groups[k], int32(i))
+		}
 	}
 	return order, groups
 }

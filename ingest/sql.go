@@ -7,7 +7,8 @@ import (
 )
 
 // SQL returns the SQL functions this package declares (see DEVELOPERS.md).
-func SQL() sqlfn.Set {
+func SQL() (set sqlfn.Set) {
+	defer func() { set.Funcs = append(set.Funcs, profileFuncs()...) }() // the profile's, profile_sql.go
 	return sqlfn.Set{Package: "ingest", Funcs: []sqlfn.Func{
 		{
 			Name: "ingest_digest", NArgs: -1, Deterministic: true, Args: "v1, ..., vn",

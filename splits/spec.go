@@ -180,7 +180,7 @@ func ParseMap(s string) (map[string]string, error) {
 func ParseSpec(data []byte, file string) (*Spec, error) {
 	dec := yaml.NewDecoder(bytes.NewReader(data))
 	dec.KnownFields(true)
-	var s Spec
+	s := Spec{Seed: 1} // the flag's default, so a file without seed means what the flags mean
 	if err := dec.Decode(&s); err != nil {
 		if errors.Is(err, errEOF) || strings.Contains(err.Error(), "EOF") {
 			return nil, &FieldError{File: file, Field: "version", Msg: "empty spec file"}
@@ -335,6 +335,9 @@ func (s *Spec) Resolve() error {
 				return fieldErr(fmt.Sprintf("group[%d]", i+1), "column %q is repeated", g)
 			}
 		}
+	}
+	if len(s.Key) > 0 && len(s.Group) > 0 {
+		return fieldErr("key", "a grouped split hashes each entity's key, not --key; drop one of them")
 	}
 	for i, k := range s.Key {
 		for j := 0; j < i; j++ {
@@ -529,12 +532,38 @@ var timeLayouts = []string{"2006-01-02", time.RFC3339Nano, "2006-01-02T15:04:05.
 // parseTimeText parses a DATE or TIMESTAMP text value to Unix seconds (a value without a zone
 // is read as UTC, for ordering only).
 func parseTimeText(v string) (float64, bool) {
+	if len(v) == 10 && v[4] == '-' && v[7] == '-' {
+		// Fast path for DATE (YYYY-MM-DD): the common case, parsed without time.Parse.
+		y, ok1 := digits(v[0:4])
+		m, ok2 := digits(v[5:7])
+		d, ok3 := digits(v[8:10])
+		if !ok1 || !ok2 || !ok3 || m < 1 || m > 12 || d < 1 {
+			return 0, false
+		}
+		t := time.Date(y, time.Month(m), d, 0, 0, 0, 0, time.UTC)
+		if t.Day() != d {
+			return 0, false // 2023-02-30
+		}
+		return float64(t.Unix()), true
+	}
 	for _, l := range timeLayouts {
 		if t, err := time.Parse(l, v); err == nil {
 			return float64(t.Unix()) + float64(t.Nanosecond())/1e9, true
 		}
 	}
 	return 0, false
+}
+
+func digits(s string) (int, bool) {
+	n := 0
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if c < '0' || c > '9' {
+			return 0, false
+		}
+		n = n*10 + int(c-'0')
+	}
+	return n, true
 }
 
 func sortedKeys(m map[string]string) []string {

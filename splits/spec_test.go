@@ -34,6 +34,10 @@ span: entity
 			t.Errorf("file and flags differ:\n%s\n%s", s.CanonicalJSON(), flags.CanonicalJSON())
 		}
 	}
+	// Without seed, a file means what the flags mean (--seed defaults to 1).
+	if s, err := ParseSpec([]byte("version: 1\nname: a\ntable: t\n"), "s.yaml"); err != nil || s.Seed != 1 {
+		t.Errorf("default seed: %v %v", s, err)
+	}
 	// JSON is YAML.
 	s, err := ParseSpec([]byte(flags.CanonicalJSON()), "split.json")
 	if err != nil {

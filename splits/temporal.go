@@ -1,7 +1,9 @@
 package splits
 
 import (
+	"cmp"
 	"fmt"
+	"slices"
 	"math"
 	"sort"
 )
@@ -16,13 +18,19 @@ func timeOrder(d *data, rows []int) []int {
 			}
 		}
 	}
-	sort.Slice(rows, func(i, j int) bool {
-		a, b := rows[i], rows[j]
-		if d.t[a] != d.t[b] {
-			return d.t[a] < d.t[b]
-		}
-		return d.rowID[a] < d.rowID[b]
-	})
+	// Rows are in ss_row order, so a stable sort by time gives (time, ss_row) order.
+	type tk struct {
+		t float64
+		i int
+	}
+	ks := make([]tk, len(rows))
+	for j, i := range rows {
+		ks[j] = tk{d.t[i], i}
+	}
+	slices.SortStableFunc(ks, func(a, b tk) int { return cmp.Compare(a.t, b.t) })
+	for j := range ks {
+		rows[j] = ks[j].i
+	}
 	return rows
 }
 

@@ -17,7 +17,7 @@ import (
 //
 // One row per inspection of a pipe segment (about 2,000 segments, 1–12 inspections each,
 // 2017–2024). wall_loss_pct is a smooth nonlinear function of pipe age, operating pressure
-// and soil moisture (scaled by material) plus noise: the regression target. repaired_365d is
+// and soil moisture plus noise (material acts on prior breaks): the regression target. repaired_365d is
 // the binary label (more likely with more wall loss and prior breaks). work_order is filled in
 // mostly when a repair happened: a planted label leak. Also planted: twice-imported rows
 // (exact copies appended as a second import), notes copied and lightly edited from the
@@ -64,18 +64,17 @@ type demoSegment struct {
 
 var demoMaterials = []struct {
 	name        string
-	from, to    int     // install years
-	wear        float64 // multiplier of wall loss
+	from, to    int // install years
 	breaks      float64
 	weight      float64
 	variantCase string // a spelling variant planted now and then
 }{
-	{"cast iron", 1905, 1965, 1.35, 1.6, 0.30, "Cast Iron"},
-	{"ductile iron", 1960, 2015, 0.95, 0.8, 0.25, "ductile iron "},
-	{"steel", 1930, 1985, 1.20, 1.2, 0.10, "Steel"},
-	{"asbestos cement", 1940, 1980, 0.85, 1.0, 0.10, "Asbestos Cement"},
-	{"PVC", 1970, 2018, 0.30, 0.5, 0.18, "pvc"},
-	{"HDPE", 1985, 2018, 0.20, 0.3, 0.07, " HDPE"},
+	{"cast iron", 1905, 1965, 1.6, 0.30, "Cast Iron"},
+	{"ductile iron", 1960, 2015, 0.8, 0.25, "ductile iron "},
+	{"steel", 1930, 1985, 1.2, 0.10, "Steel"},
+	{"asbestos cement", 1940, 1980, 1.0, 0.10, "Asbestos Cement"},
+	{"PVC", 1970, 2018, 0.5, 0.18, "pvc"},
+	{"HDPE", 1985, 2018, 0.3, 0.07, " HDPE"},
 }
 
 var demoDiameters = []int{100, 150, 150, 200, 200, 250, 300, 400, 600}
@@ -191,14 +190,9 @@ func WriteDemoCSV(w io.Writer, opt DemoOptions) (DemoStats, error) {
 		pressure := s.pressure + 25*norm()
 		moisture := math.Max(2, s.moisture+3*norm())
 		breaks[in.seg] += poisson(s.breakRate * age / 10)
-		wear := 1.0
-		for _, m := range demoMaterials {
-			if m.name == s.material {
-				wear = m.wear
-			}
-		}
-		// Smooth nonlinear target: a power of age, saturating pressure and moisture effects.
-		wall := wear * 9 * math.Pow(age/40, 1.5) * (0.6 + 0.8/(1+math.Exp(-(pressure-550)/80))) * (0.5 + moisture/30)
+		// Smooth nonlinear target of age, pressure and moisture only (a power of age,
+		// saturating pressure and moisture effects); material acts through prior breaks.
+		wall := 9 * math.Pow(age/40, 1.5) * (0.6 + 0.8/(1+math.Exp(-(pressure-550)/80))) * (0.5 + moisture/30)
 		wall += 2.2 * norm()
 		wall = math.Max(0, math.Min(95, wall))
 		logit := -4.2 + 0.11*wall + 0.45*float64(breaks[in.seg])

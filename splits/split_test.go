@@ -407,3 +407,43 @@ func sortStrings(s []string) {
 		}
 	}
 }
+
+func TestSplit_StratifiedGroupedBestEffort(t *testing.T) {
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(8, 3000, 600, 1), nil)
+	res := mustSplit(t, path, Spec{Name: "sg", Table: "t", Seed: 3, Group: []string{"grp"}, Stratify: "cls"})
+	bad := query(t, path, `SELECT count(*) FROM (SELECT t.grp FROM ss_split_rows r JOIN t ON t.ss_row = r.row_id WHERE r.split_name = 'sg' GROUP BY t.grp HAVING count(DISTINCT r.side) > 1)`)
+	if bad[0] != "0" {
+		t.Errorf("%s groups on two sides", bad[0])
+	}
+	dev, ok := res.Notes["max_stratum_deviation_rows"].(float64)
+	// Each stratum has ~300-1800 rows in entities of ~5 rows: the deviation should be a few
+	// entities' worth, far below 10% of the smallest stratum (a rule of thumb, no source).
+	if !ok || dev > 30 {
+		t.Errorf("max_stratum_deviation_rows = %v", res.Notes["max_stratum_deviation_rows"])
+	}
+	checkAuditQueries(t, path, "sg")
+}
+
+func TestSplit_AdoptedFoldColumn(t *testing.T) {
+	path := newDB(t)
+	rows := [][]any{{int64(1), int64(1)}, {int64(2), int64(2)}, {int64(3), int64(1)}, {int64(4), int64(3)}, {int64(5), int64(2)}}
+	makeTable(t, path, "d", []col{{"v", "INTEGER"}, {"fold", "INTEGER"}}, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "af", Table: "d", FoldColumn: "fold"})
+	if len(res.Folds) != 3 || res.Folds[0].TestRows != 2 || res.Folds[0].TrainRows != 3 || res.Folds[2].TestRows != 1 {
+		t.Errorf("folds %+v", res.Folds)
+	}
+	got := readRows(t, path, "af")
+	for i, r := range rows {
+		if got[int64(i+1)].fold != r[1].(int64) || got[int64(i+1)].side != "train" {
+			t.Errorf("row %d: %+v", i+1, got[int64(i+1)])
+		}
+	}
+	if rep := verify(t, path, "af"); !rep.Intact {
+		t.Errorf("adopted folds do not verify: %+v", rep.Changes)
+	}
+	makeTable(t, path, "e", []col{{"fold", "INTEGER"}}, [][]any{{int64(1)}, {nil}}, nil)
+	if _, err := split(t, path, Spec{Name: "ae", Table: "e", FoldColumn: "fold"}, false); err == nil || !strings.Contains(err.Error(), "row ss_row 2 has fold NULL or not an integer") {
+		t.Errorf("NULL fold: %v", err)
+	}
+}

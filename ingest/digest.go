@@ -4,7 +4,6 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"fmt"
-	"hash"
 	"math"
 	"strconv"
 )
@@ -17,59 +16,56 @@ const (
 	tagText    = 0x03
 )
 
-// Digester computes the content digest of one row at a time without allocating per value.
+// Digester computes the content digest of one row at a time: values are encoded into one
+// reused buffer and hashed with a single SHA-256 call per row.
 // The zero value is not ready; use NewDigester.
 type Digester struct {
-	h   hash.Hash
-	buf []byte
-	sum []byte
+	row []byte
 }
 
 // NewDigester returns a Digester.
 func NewDigester() *Digester {
-	return &Digester{h: sha256.New(), buf: make([]byte, 0, 64), sum: make([]byte, 0, 32)}
+	return &Digester{row: make([]byte, 0, 256)}
 }
 
 // Reset starts a new row.
-func (d *Digester) Reset() { d.h.Reset() }
+func (d *Digester) Reset() { d.row = d.row[:0] }
+
+func (d *Digester) hdr(tag byte, n int) {
+	d.row = append(d.row, tag, byte(n>>24), byte(n>>16), byte(n>>8), byte(n))
+}
 
 func (d *Digester) put(tag byte, b []byte) {
-	var hdr [5]byte
-	hdr[0] = tag
-	binary.BigEndian.PutUint32(hdr[1:], uint32(len(b)))
-	d.h.Write(hdr[:])
-	d.h.Write(b)
+	d.hdr(tag, len(b))
+	d.row = append(d.row, b...)
 }
 
 // Null adds a NULL value.
-func (d *Digester) Null() { d.put(tagNull, nil) }
+func (d *Digester) Null() { d.hdr(tagNull, 0) }
 
 // Int adds an INTEGER value.
 func (d *Digester) Int(v int64) {
-	d.buf = strconv.AppendInt(d.buf[:0], v, 10)
-	d.put(tagInteger, d.buf)
+	var buf [20]byte
+	d.put(tagInteger, strconv.AppendInt(buf[:0], v, 10))
 }
 
 // Real adds a REAL value.
 func (d *Digester) Real(v float64) {
-	d.buf = strconv.AppendFloat(d.buf[:0], v, 'g', -1, 64)
-	d.put(tagReal, d.buf)
+	var buf [32]byte
+	d.put(tagReal, strconv.AppendFloat(buf[:0], v, 'g', -1, 64))
 }
+
+// intText adds an INTEGER value given as its canonical decimal text (strictly inferred
+// integers: -?(0|[1-9][0-9]*), never "-0").
+func (d *Digester) intText(b []byte) { d.put(tagInteger, b) }
 
 // realText adds a REAL value given as its canonical text (see realTextCanonical).
 func (d *Digester) realText(b []byte) { d.put(tagReal, b) }
 
 // Text adds a TEXT value.
 func (d *Digester) Text(s string) {
-	var hdr [5]byte
-	hdr[0] = tagText
-	binary.BigEndian.PutUint32(hdr[1:], uint32(len(s)))
-	d.h.Write(hdr[:])
-	if sw, ok := d.h.(interface{ WriteString(string) (int, error) }); ok {
-		sw.WriteString(s)
-	} else {
-		d.h.Write([]byte(s))
-	}
+	d.hdr(tagText, len(s))
+	d.row = append(d.row, s...)
 }
 
 // Value adds a value as database/sql returns it: nil, int64, float64, string, []byte, bool.
@@ -105,8 +101,8 @@ func (d *Digester) Value(v any) error {
 
 // Sum returns the row's digest: the first 8 bytes of the SHA-256, big-endian, as int64.
 func (d *Digester) Sum() int64 {
-	d.sum = d.h.Sum(d.sum[:0])
-	return int64(binary.BigEndian.Uint64(d.sum[:8]))
+	sum := sha256.Sum256(d.row)
+	return int64(binary.BigEndian.Uint64(sum[:8]))
 }
 
 // Digest returns the content digest of one row's user values in column order.

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"os"
 	"strings"
+	"unsafe"
 )
 
 var osStat = os.Stat
@@ -18,6 +19,7 @@ const maxParams = 32000
 // batch is rows*width bound values for one multi-row INSERT, plus rejected rows met on the way.
 type batch struct {
 	args    []driver.NamedValue
+	arena   []byte // bytes of the batch's text values (their strings point here)
 	n       int
 	src     int // index of the source every row of the batch comes from
 	rejects []Problem
@@ -173,6 +175,15 @@ func nullIfEmpty(s string) driver.Value {
 	return s
 }
 
+// str returns p as a string stored in the batch's arena, without a heap allocation per value.
+// The batch is refilled only after the consumer has executed it, and the driver copies text
+// when it binds it, so the bytes never change while a string of them is in use.
+func (b *batch) str(p []byte) string {
+	start := len(b.arena)
+	b.arena = append(b.arena, p...)
+	return unsafe.String(unsafe.SliceData(b.arena[start:]), len(p))
+}
+
 // produce is pass 2's reading side.
 func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *batch, per, width int) error {
 	conv := &converter{}
@@ -184,6 +195,7 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 		select {
 		case b = <-free:
 			b.n = 0
+			b.arena = b.arena[:0]
 			b.src = src
 			b.rejects = b.rejects[:0]
 			return nil
@@ -274,14 +286,33 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 				d.Null()
 				continue
 			}
-			v, ok := conv.value(l.types[i], l.lenient[i], f)
+			var v driver.Value
+			switch l.types[i] {
+			case TypeText:
+				v, ok = b.str(f), true
+			case TypeDate:
+				if ok = isDate(f); ok {
+					v = b.str(f)
+				}
+			case TypeTimestamp:
+				conv.ts, ok, _ = canonTimestamp(f, conv.ts[:0])
+				if ok {
+					v = b.str(conv.ts)
+				}
+			default:
+				v, ok = conv.value(l.types[i], l.lenient[i], f)
+			}
 			if !ok {
 				return &Problem{Source: s.name, Line: r.line, Column: l.cols[i], Value: string(f),
 					Reason: fmt.Sprintf("value %q no longer parses as %s (did the input change while loading?)", clip(string(f)), l.types[i])}
 			}
 			switch x := v.(type) {
 			case int64:
-				d.Int(x)
+				if !l.lenient[i] && l.types[i] == TypeInteger && !(len(f) == 2 && f[0] == '-') {
+					d.intText(f) // strict integers are already AppendInt's text ("-0" is not)
+				} else {
+					d.Int(x)
+				}
 			case float64:
 				if realTextCanonical(f) {
 					d.realText(f)

@@ -431,13 +431,14 @@ func assignAdopted(d *data, spec *Spec, a *assignment) error {
 				return s, ok
 			}
 			if spec.FromColumn == "ss_source" {
+				// The file's base name without its data extensions: train.csv.gz → train.
 				b := path.Base(strings.ReplaceAll(v, `\`, "/"))
 				for {
-					ext := path.Ext(b)
-					if ext == "" || ext == b {
+					ext := strings.ToLower(path.Ext(b))
+					if ext != ".gz" && ext != ".csv" && ext != ".tsv" && ext != ".jsonl" && ext != ".json" && ext != ".txt" || ext == strings.ToLower(b) {
 						break
 					}
-					b = strings.TrimSuffix(b, ext)
+					b = b[:len(b)-len(ext)]
 				}
 				return b, true
 			}

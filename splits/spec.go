@@ -87,7 +87,7 @@ type Spec struct {
 	TestSize int `json:"test_size,omitempty" yaml:"test_size"`
 	// Adopted: FromColumn (a user column, or ss_source for the input file) gives each row's
 	// side, through Map (value → side; default: the value itself, and for ss_source the file's
-	// base name without extensions). FoldColumn adopts integer fold numbers.
+	// base name without .csv/.tsv/.jsonl/.json/.txt/.gz). FoldColumn adopts integer folds.
 	FromColumn string            `json:"from_column,omitempty" yaml:"from_column"`
 	Map        map[string]string `json:"map,omitempty" yaml:"map"`
 	FoldColumn string            `json:"fold_column,omitempty" yaml:"fold_column"`

@@ -259,6 +259,9 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 	switch {
 	case l.opts.Replace:
 		l.mode, l.firstRow = "replace", 1
+		if splits := dependentSplits(ctx, conn, name); len(splits) > 0 {
+			return usagef("--replace: table %q has splits (%s) that refer to its rows; replacing it would leave them describing rows that no longer exist: load into another --table or a new --db", name, strings.Join(splits, ", "))
+		}
 	case l.opts.Append:
 		l.mode = "append"
 		rows, err := conn.QueryContext(ctx, `SELECT name, logical_type, sql_type, reason, missing FROM ss_columns WHERE table_name = ? ORDER BY position`, name)
@@ -287,6 +290,23 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 		return usagef("table %q already exists (%d rows): give --replace to overwrite it or --append to add rows", name, n)
 	}
 	return nil
+}
+
+// dependentSplits lists the splits made of a table (none when the splits table is absent).
+func dependentSplits(ctx context.Context, conn *sql.Conn, table string) []string {
+	rows, err := conn.QueryContext(ctx, `SELECT split_name FROM ss_splits WHERE lower(table_name) = lower(?) ORDER BY split_name`, table)
+	if err != nil {
+		return nil
+	}
+	defer rows.Close()
+	var out []string
+	for rows.Next() {
+		var n string
+		if rows.Scan(&n) == nil {
+			out = append(out, n)
+		}
+	}
+	return out
 }
 
 func quoteIdent(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
@@ -466,6 +486,9 @@ func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, c
 	hdr, line, err := rr.header()
 	if err != nil {
 		if errors.Is(err, errEmpty) {
+			if s.format == "jsonl" {
+				return &Problem{Source: s.name, Reason: "empty input: no JSON object"}
+			}
 			return &Problem{Source: s.name, Reason: "empty input: no header line"}
 		}
 		if line > 0 {

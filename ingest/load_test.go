@@ -429,3 +429,24 @@ func BenchmarkReadCSV_EncodingCSV(b *testing.B) {
 		}
 	}
 }
+
+// --replace refuses a table that splits were made of (their rows would no longer exist).
+func TestLoad_ReplaceRefusesSplitTable(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "t.db")
+	if _, err := loadInto(t, path, []Input{csvIn("a.csv", "n\n1\n2\n")}, Options{Table: "t"}); err != nil {
+		t.Fatal(err)
+	}
+	err := store.Update(context.Background(), path, store.Options{}, false, store.Run{Command: "test"}, func(ctx context.Context, tx *store.Tx) error {
+		_, err := tx.Conn.ExecContext(ctx, `INSERT INTO ss_splits(split_name, table_name, strategy, spec_json, seed, run_id, table_rows, assigned_rows, dropped_rows, table_seal, summary_json)
+			VALUES ('naive', 't', 'random', '{}', 1, ?, 2, 2, 0, 'x', '{}')`, tx.RunID)
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, err = loadInto(t, path, []Input{csvIn("b.csv", "n\n3\n")}, Options{Table: "t", Replace: true})
+	var u *UsageError
+	if !errors.As(err, &u) || !strings.Contains(err.Error(), `table "t" has splits (naive)`) {
+		t.Errorf("err = %v", err)
+	}
+}

@@ -158,7 +158,7 @@ func (s *source) open(hashing bool, count func(int64)) (recordReader, func() err
 		r = zr
 	}
 	if s.gz {
-		r = &errPrefix{r: r, prefix: s.name + ": gzip: "}
+		r = &errPrefix{r: r, prefix: "gzip: "}
 	}
 	var rr recordReader
 	switch s.format {

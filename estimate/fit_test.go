@@ -202,3 +202,13 @@ func TestFamilies_Grad(t *testing.T) {
 		}
 	}
 }
+
+func BenchmarkLeastSquares_Thurber(b *testing.B) {
+	f := readNIST(b, "Thurber")
+	x := f.col(0)
+	for i := 0; i < b.N; i++ {
+		if _, err := LeastSquares(nistModels["Thurber"], x, f.Y, nil, f.Start1, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

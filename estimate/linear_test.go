@@ -108,3 +108,13 @@ func TestLinearLS_FilipPlainDesign(t *testing.T) {
 		t.Errorf("Filip with a float64 design: only %.1f digits", minLRE)
 	}
 }
+
+func BenchmarkPolyLS_Filip(b *testing.B) {
+	f := readNIST(b, "Filip")
+	x := f.col(0)
+	for i := 0; i < b.N; i++ {
+		if _, err := PolyLS(x, f.Y, 10); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -120,6 +120,10 @@ func finitePtr(v float64) *float64 {
 	return &v
 }
 
+// MaxNStar is the n beyond which n* is reported as +Inf (not reached): a curve that falls so
+// slowly that it meets the target only past 10^15 samples does not meet it in practice.
+const MaxNStar = 1e15
+
 // Errors Extrapolate returns for bad input (wrapped with detail).
 var (
 	ErrTooFewSizes = errors.New("too few distinct sizes")
@@ -230,6 +234,9 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 		s := [3]float64{fam.Asymptote(p), math.NaN(), math.NaN()}
 		if o.Target > 0 {
 			s[1] = solveNStar(fam, o.Target, p)
+			if s[1] >= MaxNStar {
+				s[1] = inf
+			}
 		}
 		if o.At > 0 {
 			s[2] = fam.F(o.At, p)
@@ -721,15 +728,20 @@ func verdict(r *Result, o Options) string {
 	if r.NStar != nil {
 		T := o.Target
 		switch {
-		case math.IsInf(r.NStar.Est, 1) || T <= r.Asymptote.Est:
+		case T <= r.Asymptote.Est && r.Asymptote.Method != "none":
 			fmt.Fprintf(&b, " The target %s is at or below the asymptote: not reachable with this capacity; more data will not get there, more capacity might.", num(T))
+		case math.IsInf(r.NStar.Est, 1):
+			fmt.Fprintf(&b, " The curve falls so slowly that it would reach the target %s only beyond 10^15 samples: in practice not reachable with this capacity; more data will not get there, more capacity might.", num(T))
 		case !r.Reachable:
 			fmt.Fprintf(&b, " The target %s lies within the asymptote's interval: it may not be reachable with this capacity (the point estimate is n* ≈ %s, upper bound %s); more capacity might be needed.", num(T), num(r.NStar.Est), num(r.NStar.Hi))
 		case r.NStar.Est <= largest:
 			fmt.Fprintf(&b, " The fitted curve already reaches the target %s within the measured sizes, at n* ≈ %s (%s interval %s to %s).", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi))
 		default:
 			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi), r.NStar.Est/largest)
-			if r.NStar.Est > 10*largest {
+			switch {
+			case r.NStar.Est > 1000*largest:
+				b.WriteString(" That is more than 1000× beyond the measured sizes, further than any extrapolation can be trusted: read it as \"not within reach with this capacity\".")
+			case r.NStar.Est > 10*largest:
 				b.WriteString(" That is far beyond the measured sizes: treat it as a rough guide.")
 			}
 		}

@@ -5,7 +5,9 @@ import (
 	"math"
 )
 
-// Family is one learning-curve shape err(n; θ).
+// Family is one learning-curve shape err(n; θ). The bounds keep every curve non-increasing
+// in n (b ≥ 0; log2: b ≤ 0), as a holdout error curve is: a flat or rising measured curve is
+// fitted as flat (b = 0) rather than as a curve that rises from an asymptote.
 type Family struct {
 	Name   string
 	Doc    string
@@ -50,7 +52,7 @@ var pow3Family = &Family{
 		t := math.Pow(n, -p[2])
 		g[0], g[1], g[2] = 1, t, -p[1]*t*math.Log(n)
 	},
-	Lower:     []float64{0, -inf, cMin},
+	Lower:     []float64{0, 0, cMin},
 	Upper:     []float64{inf, inf, inf},
 	Asymptote: func(p []float64) float64 { return p[0] },
 	NStar:     NStarPow3Params,
@@ -66,7 +68,7 @@ var pow2Family = &Family{
 		t := math.Pow(n, -p[1])
 		g[0], g[1] = t, -p[0]*t*math.Log(n)
 	},
-	Lower:     []float64{-inf, cMin},
+	Lower:     []float64{0, cMin},
 	Upper:     []float64{inf, inf},
 	Asymptote: func(p []float64) float64 { return 0 },
 	NStar: func(T float64, p []float64) float64 {
@@ -90,7 +92,7 @@ var exp3Family = &Family{
 		t := math.Exp(-p[2] * n)
 		g[0], g[1], g[2] = 1, t, -p[1]*n*t
 	},
-	Lower:     []float64{0, -inf, cMin},
+	Lower:     []float64{0, 0, cMin},
 	Upper:     []float64{inf, inf, inf},
 	Asymptote: func(p []float64) float64 { return p[0] },
 	NStar: func(T float64, p []float64) float64 {
@@ -119,7 +121,7 @@ var log2Family = &Family{
 		g[0], g[1] = 1, math.Log(n)
 	},
 	Lower:     []float64{-inf, -inf},
-	Upper:     []float64{inf, inf},
+	Upper:     []float64{inf, 0},
 	Asymptote: func(p []float64) float64 { return 0 },
 	NStar: func(T float64, p []float64) float64 {
 		if p[1] >= 0 {

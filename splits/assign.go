@@ -11,7 +11,7 @@ import (
 	"strings"
 )
 
-// Reasons a row is dropped (side '').
+// Reasons a row is dropped (side ”).
 const (
 	reasonNone uint8 = iota
 	reasonGap
@@ -62,11 +62,11 @@ type assignment struct {
 }
 
 type foldStat struct {
-	fold                      int
-	trainRows, testRows       int
-	trainGroups, testGroups   int
-	excluded                  int
-	hasGroups                 bool
+	fold                    int
+	trainRows, testRows     int
+	trainGroups, testGroups int
+	excluded                int
+	hasGroups               bool
 }
 
 // progressFn reports done of total rows.

@@ -130,9 +130,9 @@ func openDB(t testing.TB, path string) *store.DB {
 
 // assignment reads a split's rows: row_id -> "side/fold/train_from/reason".
 type rowAssign struct {
-	side      string
-	fold, tf  int64
-	reason    string
+	side     string
+	fold, tf int64
+	reason   string
 }
 
 func readRows(t testing.TB, path, name string) map[int64]rowAssign {

@@ -22,7 +22,7 @@ type Table struct {
 
 var systemColumns = []string{"ss_row", "ss_source", "ss_line", "ss_digest"}
 
-func quoteIdent(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
+func quoteIdent(s string) string  { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
 func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`) + `'` }
 
 // ReadTable reads an ingested table's user columns and their logical types.

@@ -3,8 +3,8 @@ package splits
 import (
 	"cmp"
 	"fmt"
-	"slices"
 	"math"
+	"slices"
 	"sort"
 )
 

@@ -23,14 +23,14 @@ type Change struct {
 
 // Report is the outcome of Verify.
 type Report struct {
-	Split    string   `json:"split"`
-	Table    string   `json:"table"`
-	Strategy string   `json:"strategy"`
-	Rows     int      `json:"rows_sealed"`
-	Intact   bool     `json:"intact"`
+	Split    string         `json:"split"`
+	Table    string         `json:"table"`
+	Strategy string         `json:"strategy"`
+	Rows     int            `json:"rows_sealed"`
+	Intact   bool           `json:"intact"`
 	Counts   map[string]int `json:"counts"`
-	Changes  []Change `json:"changes"`
-	Notes    []string `json:"notes"`
+	Changes  []Change       `json:"changes"`
+	Notes    []string       `json:"notes"`
 }
 
 // Verify recomputes a stored split from its spec and the table's current data, and reports
@@ -60,8 +60,8 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 	}
 	// Stored rows.
 	type stored struct {
-		side      string
-		fold, tf  sql.NullInt64
+		side     string
+		fold, tf sql.NullInt64
 	}
 	st := map[int64]stored{}
 	var ids []int64
@@ -324,13 +324,13 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 	var qs []AuditQuery
 	qs = append(qs, AuditQuery{Name: "rows_added_or_removed", Kind: "check",
 		Description: "rows of the table that are not in the split (added since sealing) and rows of the split no longer in the table",
-		SQL: fmt.Sprintf(`SELECT 'added' AS change, t.ss_row AS row_id FROM %[1]s AS t WHERE t.ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = %[2]s) UNION ALL SELECT 'removed', r.row_id FROM ss_split_rows AS r WHERE r.split_name = %[2]s AND r.row_id NOT IN (SELECT ss_row FROM %[1]s) ORDER BY 2`, T, n)})
+		SQL:         fmt.Sprintf(`SELECT 'added' AS change, t.ss_row AS row_id FROM %[1]s AS t WHERE t.ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = %[2]s) UNION ALL SELECT 'removed', r.row_id FROM ss_split_rows AS r WHERE r.split_name = %[2]s AND r.row_id NOT IN (SELECT ss_row FROM %[1]s) ORDER BY 2`, T, n)})
 	qs = append(qs, AuditQuery{Name: "side_counts", Kind: "check",
 		Description: "sides whose stored row count differs from the rows assigned to them",
-		SQL: fmt.Sprintf(`SELECT s.side, s.rows, (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[1]s AND s.rows <> (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, n)})
+		SQL:         fmt.Sprintf(`SELECT s.side, s.rows, (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[1]s AND s.rows <> (SELECT count(*) FROM ss_split_rows AS r WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, n)})
 	qs = append(qs, AuditQuery{Name: "side_seals", Kind: "check", NeedsTool: true,
 		Description: "sides whose seal (split_seal over the rows' ss_digest) differs from the stored digest; without splitsmith: SHA-256 of the side's ss_digest values sorted ascending, each as 8 bytes big-endian",
-		SQL: fmt.Sprintf(`SELECT s.side, s.digest, (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[2]s AND s.digest IS NOT (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, T, n)})
+		SQL:         fmt.Sprintf(`SELECT s.side, s.digest, (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) AS now FROM ss_split_sides AS s WHERE s.split_name = %[2]s AND s.digest IS NOT (SELECT split_seal(t.ss_digest) FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = s.split_name AND r.side = s.side) ORDER BY s.position`, T, n)})
 	var cols []string
 	for _, c := range t.Columns {
 		cols = append(cols, quoteIdent(c.Name))
@@ -353,38 +353,38 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 	case spec.Strategy() == "random" || (spec.Strategy() == "stratified" && spec.StratifyMode == "hash"):
 		qs = append(qs, AuditQuery{Name: "assignment", Kind: "check", NeedsTool: true,
 			Description: "rows whose stored side differs from split_side(key, seed, sides) (the hash specification)",
-			SQL: fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, keyExpr, seed, sides)})
+			SQL:         fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, keyExpr, seed, sides)})
 	case spec.Strategy() == "grouped" && len(spec.Group) == 1:
 		g := "t." + quoteIdent(spec.Group[0])
 		key := fmt.Sprintf("CASE WHEN %[1]s IS NULL THEN t.ss_digest ELSE split_key(%[1]s) END", g)
 		qs = append(qs, AuditQuery{Name: "assignment", Kind: "check", NeedsTool: true,
 			Description: "rows whose stored side differs from split_side(entity key, seed, sides); the entity key is split_key(group value), or ss_digest for a NULL group value",
-			SQL: fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, key, seed, sides)})
+			SQL:         fmt.Sprintf(`SELECT r.row_id, r.side, split_side(%[3]s, %[4]s, %[5]s) AS recomputed FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> split_side(%[3]s, %[4]s, %[5]s) ORDER BY r.row_id`, T, n, key, seed, sides)})
 	case spec.Strategy() == "stratified":
 		s := "t." + quoteIdent(spec.Stratify)
 		qs = append(qs, AuditQuery{Name: "stratum_hash_order", Kind: "check", NeedsTool: true,
 			Description: "strata in which a side's rows are not a contiguous run in hash order (each stratum is cut in split_hash_u order)",
-			SQL: fmt.Sprintf(`WITH x AS (SELECT %[3]s AS stratum, r.side, split_hash_u(%[4]s, %[5]s) AS u FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s), g AS (SELECT x.stratum, x.side, p.position, min(x.u) AS lo, max(x.u) AS hi FROM x JOIN ss_split_sides AS p ON p.split_name = %[2]s AND p.side = x.side GROUP BY x.stratum, x.side) SELECT a.stratum, a.side, b.side FROM g AS a JOIN g AS b ON a.stratum IS b.stratum AND a.position < b.position AND a.hi > b.lo ORDER BY 1, 2, 3`, T, n, s, keyExpr, seed)})
+			SQL:         fmt.Sprintf(`WITH x AS (SELECT %[3]s AS stratum, r.side, split_hash_u(%[4]s, %[5]s) AS u FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s), g AS (SELECT x.stratum, x.side, p.position, min(x.u) AS lo, max(x.u) AS hi FROM x JOIN ss_split_sides AS p ON p.split_name = %[2]s AND p.side = x.side GROUP BY x.stratum, x.side) SELECT a.stratum, a.side, b.side FROM g AS a JOIN g AS b ON a.stratum IS b.stratum AND a.position < b.position AND a.hi > b.lo ORDER BY 1, 2, 3`, T, n, s, keyExpr, seed)})
 	}
 	for i, g := range spec.Group {
 		qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_side_%d", i+1), Kind: "check",
 			Description: fmt.Sprintf("values of group column %s found on more than one side (every entity must be on one side)", g),
-			SQL: fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.side) AS sides FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> '' AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.side) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
+			SQL:         fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.side) AS sides FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> '' AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.side) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
 		if spec.FoldScheme() == "kfold" {
 			qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_fold_%d", i+1), Kind: "check",
 				Description: fmt.Sprintf("values of group column %s found in more than one fold", g),
-				SQL: fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.fold) AS folds FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.fold IS NOT NULL AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.fold) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
+				SQL:         fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.fold) AS folds FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.fold IS NOT NULL AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.fold) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
 		}
 	}
 	if spec.Time != "" {
 		tc := "t." + quoteIdent(spec.Time)
 		qs = append(qs, AuditQuery{Name: "time_order", Kind: "check",
 			Description: "pairs of sides where an earlier side has a row at or after the first time of a later side (time values compare as stored: ISO text or numbers)",
-			SQL: fmt.Sprintf(`WITH x AS (SELECT r.side, p.position, min(%[3]s) AS lo, max(%[3]s) AS hi FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id JOIN ss_split_sides AS p ON p.split_name = r.split_name AND p.side = r.side WHERE r.split_name = %[2]s GROUP BY r.side) SELECT a.side, a.hi, b.side, b.lo FROM x AS a JOIN x AS b ON a.position < b.position AND a.hi >= b.lo ORDER BY 1, 3`, T, n, tc)})
+			SQL:         fmt.Sprintf(`WITH x AS (SELECT r.side, p.position, min(%[3]s) AS lo, max(%[3]s) AS hi FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id JOIN ss_split_sides AS p ON p.split_name = r.split_name AND p.side = r.side WHERE r.split_name = %[2]s GROUP BY r.side) SELECT a.side, a.hi, b.side, b.lo FROM x AS a JOIN x AS b ON a.position < b.position AND a.hi >= b.lo ORDER BY 1, 3`, T, n, tc)})
 		if spec.FoldScheme() == "rolling" {
 			qs = append(qs, AuditQuery{Name: "rolling_folds", Kind: "check",
 				Description: "rows trained on in the fold that tests them, or trained on at or after a test row of that fold in time",
-				SQL: fmt.Sprintf(`SELECT r.row_id, r.fold, r.train_from FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.train_from IS NOT NULL AND (r.train_from <= r.fold OR %[3]s >= (SELECT min(%[4]s) FROM ss_split_rows AS q JOIN %[1]s AS u ON u.ss_row = q.row_id WHERE q.split_name = r.split_name AND q.fold = r.train_from)) ORDER BY r.row_id`, T, n, tc, "u."+quoteIdent(spec.Time))})
+				SQL:         fmt.Sprintf(`SELECT r.row_id, r.fold, r.train_from FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.train_from IS NOT NULL AND (r.train_from <= r.fold OR %[3]s >= (SELECT min(%[4]s) FROM ss_split_rows AS q JOIN %[1]s AS u ON u.ss_row = q.row_id WHERE q.split_name = r.split_name AND q.fold = r.train_from)) ORDER BY r.row_id`, T, n, tc, "u."+quoteIdent(spec.Time))})
 		}
 	}
 	qs = append(qs, AuditQuery{Name: "dropped_rows", Kind: "report",

@@ -850,6 +850,20 @@ func sweepVerdict(r *SweepReport) string {
 		}
 		fmt.Fprintf(&b, " Lowest holdout error: %s.", strings.Join(parts, ", then "))
 	}
+	if r.At > 0 {
+		best := -1
+		for i, c := range r.Capacities {
+			if c.Result != nil && c.Result.AtErr != nil && !math.IsNaN(c.Result.AtErr.Est) &&
+				(best < 0 || c.Result.AtErr.Est < r.Capacities[best].Result.AtErr.Est) {
+				best = i
+			}
+		}
+		if best >= 0 {
+			c := r.Capacities[best]
+			iv := c.Result.AtErr
+			fmt.Fprintf(&b, " At n = %g the lowest expected %s is %.4g with %s (%s interval %.4g to %.4g).", r.At, r.Metric, iv.Est, lab(c.Capacity), iv.Method, iv.Lo, iv.Hi)
+		}
+	}
 	var over []string
 	for _, c := range r.Capacities {
 		if c.Result != nil && c.Result.Gap != nil && c.Result.Gap.VarianceLimited {

@@ -450,3 +450,52 @@ func TestLoad_ReplaceRefusesSplitTable(t *testing.T) {
 		t.Errorf("err = %v", err)
 	}
 }
+
+// Many batches over several inputs, with bad rows between them: rows keep their input and
+// line, ss_row runs 1..n without gaps, and every digest recomputes in SQL.
+func TestLoad_ManyBatchesAcrossInputs(t *testing.T) {
+	var inputs []Input
+	wantLines := map[string][]int64{}
+	for k, name := range []string{"a.csv", "b.csv", "c.csv"} {
+		var b strings.Builder
+		b.WriteString("id,x,when\n")
+		for i := 1; i <= 300+k; i++ {
+			line := int64(i + 1)
+			if i%37 == 0 {
+				b.WriteString("bad row\n")
+				continue
+			}
+			fmt.Fprintf(&b, "%d,%d.25,2024-01-%02dT00:00:00Z\n", i, i, 1+i%28)
+			wantLines[name] = append(wantLines[name], line)
+		}
+		inputs = append(inputs, csvIn(name, b.String()))
+	}
+	path := filepath.Join(t.TempDir(), "t.db")
+	res, err := loadInto(t, path, inputs, Options{Table: "t", OnError: "quarantine", BatchRows: 7})
+	if err != nil {
+		t.Fatal(err)
+	}
+	total := int64(len(wantLines["a.csv"]) + len(wantLines["b.csv"]) + len(wantLines["c.csv"]))
+	if res.Rows != total || res.Rejected != 24 {
+		t.Fatalf("rows %d rejected %d, want %d and 24", res.Rows, res.Rejected, total)
+	}
+	db := openDB(t, path)
+	got := map[string][]int64{}
+	var prev int64
+	for _, r := range query(t, db.DB, `SELECT ss_row, ss_source, ss_line FROM t ORDER BY ss_row`) {
+		if r[0].(int64) != prev+1 {
+			t.Fatalf("ss_row %d after %d", r[0], prev)
+		}
+		prev = r[0].(int64)
+		got[r[1].(string)] = append(got[r[1].(string)], r[2].(int64))
+	}
+	if !reflect.DeepEqual(got, wantLines) {
+		t.Errorf("lines per source differ")
+	}
+	if bad := query(t, db.DB, res.DigestCheckSQL); len(bad) != 0 {
+		t.Errorf("digest check returned %d rows", len(bad))
+	}
+	if n := query(t, db.DB, `SELECT count(*) FROM ss_rejects`)[0][0]; n != int64(24) {
+		t.Errorf("ss_rejects has %v rows", n)
+	}
+}

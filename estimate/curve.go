@@ -699,7 +699,7 @@ func Summarise(points []CurvePoint, model, metric string, trainRows int, opts *S
 		}
 		rep.BestAt = append(rep.BestAt, best)
 	}
-	for _, c := range caps {
+	for ci, c := range caps {
 		var hold, train []Point
 		for _, p := range byCap[c] {
 			hold = append(hold, Point{N: float64(p.Size), Err: p.HoldoutErr, Repeat: p.Repeat})
@@ -708,6 +708,10 @@ func Summarise(points []CurvePoint, model, metric string, trainRows int, opts *S
 		cr := CapacityResult{Capacity: c, MaxErr: MaxMeanErr(byCap[c])}
 		oc := o
 		oc.Train = train
+		if o.Progress != nil {
+			ci := int64(ci)
+			oc.Progress = func(done, total int64) { o.Progress(ci*total+done, int64(len(caps))*total) }
+		}
 		prev := 0
 		if o.Target != 0 {
 			for _, n := range sz {

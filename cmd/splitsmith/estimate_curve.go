@@ -273,7 +273,11 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 	if err != nil {
 		return nil, curveErr(err)
 	}
-	rep, err := estimate.Summarise(pts, co.Model, metricOf(co), ld.Train.N, &o.extra)
+	fitProg := newProgress(prog.w, "estimate curve: bootstrap refits")
+	extra := o.extra
+	extra.Progress = fitProg.Report
+	rep, err := estimate.Summarise(pts, co.Model, metricOf(co), ld.Train.N, &extra)
+	fitProg.Done()
 	if err != nil {
 		return nil, curveErr(err)
 	}
@@ -419,7 +423,7 @@ func curveErr(err error) error {
 }
 
 func runEstimateCurve(ctx context.Context, cc *cli.Context, o curveOptions, s stdio) error {
-	prog := newProgress(s.err, "estimate curve "+o.spec.Split)
+	prog := newProgress(s.err, "estimate curve "+o.spec.Split+": fits")
 	var res *curveResult
 	err := update(ctx, cc, o.db, false, func(ctx context.Context, tx *store.Tx) error {
 		r, err := measureCurves(ctx, tx, o, prog)

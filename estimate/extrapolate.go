@@ -705,8 +705,20 @@ func gapDiagnosis(groups []sizeGroup, train []Point) (*GapDiagnosis, error) {
 		return nil, fmt.Errorf("%w: no training point shares a size with the holdout points", ErrBadPoint)
 	}
 	if len(ns) >= 2 {
-		_, c := logLogLine(ns, gaps, 0)
-		gd.Exponent = c
+		// ordinary least squares of ln gap on ln n; a non-negative slope means the gap is
+		// not shrinking (Exponent ≤ 0)
+		var sx, sy, sxx, sxy float64
+		k := float64(len(ns))
+		for i := range ns {
+			x, y := math.Log(ns[i]), math.Log(gaps[i])
+			sx += x
+			sy += y
+			sxx += x * x
+			sxy += x * y
+		}
+		if den := k*sxx - sx*sx; den > 0 {
+			gd.Exponent = -(k*sxy - sx*sy) / den
+		}
 	}
 	gd.VarianceLimited = gd.Ratio < 0.5
 	return gd, nil
@@ -752,8 +764,10 @@ func verdict(r *Result, o Options) string {
 	if g := r.Gap; g != nil {
 		if g.VarianceLimited {
 			fmt.Fprintf(&b, " Training error is %.0f%% of holdout error at the largest size: the model is variance-limited (overfitting)", 100*g.Ratio)
-			if !math.IsNaN(g.Exponent) {
+			if !math.IsNaN(g.Exponent) && g.Exponent > 0 {
 				fmt.Fprintf(&b, "; the gap shrinks about as n^(−%.2g), so more data helps, and so would less capacity or more regularisation.", g.Exponent)
+			} else if !math.IsNaN(g.Exponent) {
+				b.WriteString("; the gap is not shrinking over the measured sizes, so less capacity or more regularisation is the first remedy.")
 			} else {
 				b.WriteString("; more data, less capacity or more regularisation would help.")
 			}

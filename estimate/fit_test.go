@@ -107,8 +107,8 @@ var nistModels = map[string]Model{
 // TestLeastSquares_NIST checks LeastSquares against the NIST StRD nonlinear datasets
 // (testdata/nist, certified values in each file): from both NIST starting points, every
 // parameter to ≥ 6 significant digits (LRE), the RSS to ≥ 6 digits and the parameter
-// standard deviations to ≥ 4 digits (they are certified to 11 but depend on the Jacobian at
-// the solution, which the finite-difference models only approximate).
+// standard deviations to ≥ 6 digits, with analytic Jacobians (Misra1a, BoxBOD, DanWood,
+// MGH09, Thurber, Rat43, Eckerle4) and central differences (the others).
 func TestLeastSquares_NIST(t *testing.T) {
 	names := []string{"Misra1a", "Thurber", "MGH09", "Rat43", "BoxBOD", "DanWood", "Chwirut2", "Eckerle4",
 		"Misra1b", "Misra1c", "Misra1d", "Rat42", "MGH10", "Bennett5", "Chwirut1", "Kirby2", "Hahn1", "Roszman1", "Lanczos3", "Gauss1"}
@@ -141,11 +141,16 @@ func TestLeastSquares_NIST(t *testing.T) {
 					ok = false
 				}
 				if ok {
+					const want = 6.0
+					minSD := 15.0
 					for j := range res.StdErr {
-						if d := sigDigits(res.StdErr[j], f.CertSD[j]); d < 4 {
+						d := sigDigits(res.StdErr[j], f.CertSD[j])
+						minSD = math.Min(minSD, d)
+						if d < want {
 							t.Errorf("SD(b%d) = %.11g, certified %.11g: %.1f digits", j+1, res.StdErr[j], f.CertSD[j], d)
 						}
 					}
+					t.Logf("%s: SD digits ≥ %.1f", name, minSD)
 				}
 				if err != nil {
 					t.Logf("%v after %d iterations", err, res.Iterations)

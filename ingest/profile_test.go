@@ -249,3 +249,62 @@ func TestProfile_EmptyAndAllMissing(t *testing.T) {
 		return StoreProfile(ctx, tx.Conn, tx.RunID, res)
 	})
 }
+
+// benchProfileDB builds a 100,000-row ingested-shaped table of demo-like columns once.
+func benchProfileDB(b *testing.B) *store.DB {
+	b.Helper()
+	path := filepath.Join(b.TempDir(), "bench.db")
+	materials := []string{"cast iron", "ductile iron", "PVC", "steel", "HDPE"}
+	err := store.Update(context.Background(), path, store.Options{}, true, store.Run{Command: "bench"}, func(ctx context.Context, tx *store.Tx) error {
+		var rows [][]any
+		for i := 0; i < 100000; i++ {
+			x := float64((i*7919)%10007) / 100
+			rows = append(rows, []any{int64(i + 1), fmt.Sprintf("SEG-%05d", i%2000), x, fmt.Sprintf("%.1f", x/3), materials[i%5],
+				fmt.Sprintf("2020-%02d-%02d", i%12+1, i%28+1), fmt.Sprintf("note %d about joint %d", i%9000, i%37)})
+		}
+		makeTable(b, tx.Conn, "t", []string{"id", "segment", "wall", "moisture", "material", "day", "note"},
+			[]string{"INTEGER", "TEXT", "REAL", "TEXT", "TEXT", "DATE", "TEXT"}, rows)
+		return nil
+	})
+	if err != nil {
+		b.Fatal(err)
+	}
+	db, err := store.Open(context.Background(), path, store.Options{ReadOnly: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Cleanup(func() { db.Close() })
+	return db
+}
+
+// BenchmarkProfile is the whole profile of a 100k-row, 7-column table; compare it with
+// BenchmarkProfileBaselineSQL in the same run (ratio = ns/op of this / of the baseline).
+func BenchmarkProfile(b *testing.B) {
+	db := benchProfileDB(b)
+	ctx := context.Background()
+	conn, err := db.Conn(ctx)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer conn.Close()
+	for b.Loop() {
+		if _, err := Profile(ctx, conn, ProfileOptions{Table: "t"}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkProfileBaselineSQL is the baseline: plain SQL count, count(DISTINCT), min, max and
+// avg of every column of the same table (no quantiles, outliers, conformity or duplicates).
+func BenchmarkProfileBaselineSQL(b *testing.B) {
+	db := benchProfileDB(b)
+	for b.Loop() {
+		for _, c := range []string{"id", "segment", "wall", "moisture", "material", "day", "note"} {
+			var n, d int64
+			var lo, hi, avg any
+			if err := db.QueryRow(`SELECT count(`+c+`), count(DISTINCT `+c+`), min(`+c+`), max(`+c+`), avg(`+c+`) FROM t`).Scan(&n, &d, &lo, &hi, &avg); err != nil {
+				b.Fatal(err)
+			}
+		}
+	}
+}

@@ -87,7 +87,7 @@ type Result struct {
 type GapDiagnosis struct {
 	Ratio           float64 // training error / holdout error at the largest size
 	Gap             float64 // holdout − training error at the largest size
-	Exponent        float64 // c in gap ≈ b·n^(−c), fitted over the sizes; NaN if not fitted
+	Exponent        float64 // c in gap ≈ b·n^(−c) (OLS of ln gap on ln n); ≤ 0 when the gap does not shrink; NaN if not fitted
 	VarianceLimited bool    // training error is far below holdout error (Ratio < 0.5; common practice, no source)
 }
 

@@ -108,6 +108,8 @@ type column struct {
 	// rounded[d] holds SQLite's own printf('%.{d-1}e', x) of each value (numeric columns), so
 	// that stored stock-SQL queries group exactly as the audit did.
 	rounded map[int][]string
+	// roundOnly > 0: only rounded[roundOnly] was read (num holds NaN).
+	roundOnly int
 }
 
 func (c *column) numeric() bool { return c.SQLType == "INTEGER" || c.SQLType == "REAL" }
@@ -141,6 +143,7 @@ type audit struct {
 	// significant digits to load rounded forms for: REAL columns, and all numeric columns
 	roundReal, roundAll []int
 	needed              map[string]bool // columns the selected checks read
+	rawNeeded           map[string]bool // columns read as values, not only in rounded form
 	useDigest           bool            // load ss_digest
 	digest              []int64
 }
@@ -200,10 +203,17 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			a.needed[c] = true
 		}
 	}
-	if a.label != "" {
-		need(a.label)
+	a.rawNeeded = map[string]bool{}
+	raw := func(cols ...string) {
+		need(cols...)
+		for _, c := range cols {
+			a.rawNeeded[c] = true
+		}
 	}
-	need(a.text...)
+	if a.label != "" {
+		raw(a.label)
+	}
+	raw(a.text...)
 	for _, c := range run {
 		switch c {
 		case ExactDuplicate, LabelConflict, NearDuplicateNumeric:
@@ -216,12 +226,12 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 				a.roundReal = append(a.roundReal, k.realDig)
 			}
 		case LeakingFeature, DistributionShift:
-			need(a.feature...)
+			raw(a.feature...)
 		case SharedEntity:
-			need(a.entity...)
+			raw(a.entity...)
 		case TimeOverlap:
-			need(a.timeCol)
-			need(a.entity...)
+			raw(a.timeCol)
+			raw(a.entity...)
 		}
 		if c == NearDuplicateNumeric {
 			a.check = c
@@ -497,8 +507,16 @@ func (a *audit) loadRows() error {
 		if !a.needed[c.Name] {
 			continue
 		}
-		fmt.Fprintf(&sel, ", t.%s", quoteIdent(c.Name))
 		col := &column{colInfo: c}
+		ds := distinctInts(append(append([]int{}, a.roundReal...), a.roundAll...))
+		if c.SQLType == "REAL" && !a.rawNeeded[c.Name] && len(ds) == 1 && ds[0] >= 1 && ds[0] <= 30 {
+			// Only the rounded form is used: read it alone (NULL stays NULL).
+			col.roundOnly = ds[0]
+			x := "t." + quoteIdent(c.Name)
+			fmt.Fprintf(&sel, ", CASE WHEN %s IS NULL THEN NULL ELSE %s END", x, RoundSignificantSQL(x, ds[0]))
+		} else {
+			fmt.Fprintf(&sel, ", t.%s", quoteIdent(c.Name))
+		}
 		cols = append(cols, col)
 		a.data[c.Name] = col
 	}
@@ -512,6 +530,10 @@ func (a *audit) loadRows() error {
 	}
 	var rounds []rnd
 	for _, c := range cols {
+		if c.roundOnly > 0 {
+			c.rounded = map[int][]string{c.roundOnly: nil}
+			continue
+		}
 		var ds []int
 		switch c.SQLType {
 		case "REAL":
@@ -564,6 +586,14 @@ func (a *audit) loadRows() error {
 			a.digest = append(a.digest, d)
 		}
 		for i, c := range cols {
+			if c.roundOnly > 0 {
+				v := vals[first+i]
+				c.null = append(c.null, v == nil)
+				c.num = append(c.num, math.NaN())
+				c.ints = append(c.ints, 0)
+				c.rounded[c.roundOnly] = append(c.rounded[c.roundOnly], asString(v))
+				continue
+			}
 			c.add(vals[first+i])
 		}
 		for k, r := range rounds {
@@ -834,4 +864,16 @@ func (b *batch) flush() error {
 	_, err := b.a.conn.ExecContext(b.a.ctx, b.sql(len(b.args)/b.width), b.args...)
 	b.args = b.args[:0]
 	return err
+}
+
+func distinctInts(x []int) []int {
+	var out []int
+	seen := map[int]bool{}
+	for _, v := range x {
+		if !seen[v] {
+			seen[v] = true
+			out = append(out, v)
+		}
+	}
+	return out
 }

@@ -5,6 +5,7 @@ import (
 	"database/sql"
 	"errors"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 
@@ -58,29 +59,44 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
-	// Stored rows.
+	// Stored rows, in row_id order (side names interned).
 	type stored struct {
 		side     string
-		fold, tf sql.NullInt64
+		fold, tf int64
 	}
-	st := map[int64]stored{}
 	var ids []int64
-	rows, err := conn.QueryContext(ctx, `SELECT row_id, side, fold, train_from FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`, name)
+	var sts []stored
+	intern := map[string]string{}
+	rows, err := conn.QueryContext(ctx, `SELECT row_id, side, coalesce(fold, 0), coalesce(train_from, 0) FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`, name)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
+	var sideBuf []byte
 	for rows.Next() {
 		var id int64
 		var s stored
-		if err := rows.Scan(&id, &s.side, &s.fold, &s.tf); err != nil {
+		if err := rows.Scan(&id, &sideBuf, &s.fold, &s.tf); err != nil {
 			rows.Close()
 			return nil, err
 		}
-		st[id] = s
+		sd, ok := intern[string(sideBuf)]
+		if !ok {
+			sd = string(sideBuf)
+			intern[sd] = sd
+		}
+		s.side = sd
+		sts = append(sts, s)
 		ids = append(ids, id)
 	}
 	rows.Close()
 	rep.Rows = len(ids)
+	storedAt := func(id int64) (stored, bool) {
+		k, found := slices.BinarySearch(ids, id)
+		if !found {
+			return stored{}, false
+		}
+		return sts[k], true
+	}
 	// Recompute over the rows the split sealed that still exist.
 	where := `ss_row IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?)`
 	d, err := loadWhere(ctx, conn, t, spec, nil, where, []any{name})
@@ -94,11 +110,16 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		}
 	}
 	src := map[int64]string{}
-	present := map[int64]bool{}
+	// Both lists are in ascending row order: merge them.
+	k := 0
 	for i := 0; i < d.n; i++ {
 		id := d.rowID[i]
-		present[id] = true
-		s := st[id]
+		for k < len(ids) && ids[k] < id {
+			rep.Changes = append(rep.Changes, Change{Kind: "removed", RowID: ids[k], Side: sts[k].side, Detail: "row sealed in the split is no longer in the table"})
+			k++
+		}
+		s := sts[k] // present: loadWhere only returns stored rows
+		k++
 		now := ""
 		if a.side[i] >= 0 {
 			now = a.sides[a.side[i]]
@@ -113,14 +134,12 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		switch {
 		case now != s.side:
 			rep.Changes = append(rep.Changes, Change{Kind: "moved", RowID: id, Side: s.side, Now: now, Detail: fmt.Sprintf("stored on side %s, recomputed on side %s", sideLabel(s.side), sideLabel(now))})
-		case nf != s.fold.Int64 || ntf != s.tf.Int64:
-			rep.Changes = append(rep.Changes, Change{Kind: "moved", RowID: id, Side: s.side, Now: now, Detail: fmt.Sprintf("stored in fold %s, recomputed in fold %s", foldText(s.fold.Int64), foldText(nf))})
+		case nf != s.fold || ntf != s.tf:
+			rep.Changes = append(rep.Changes, Change{Kind: "moved", RowID: id, Side: s.side, Now: now, Detail: fmt.Sprintf("stored in fold %s, recomputed in fold %s", foldText(s.fold), foldText(nf))})
 		}
 	}
-	for _, id := range ids {
-		if !present[id] {
-			rep.Changes = append(rep.Changes, Change{Kind: "removed", RowID: id, Side: st[id].side, Detail: "row sealed in the split is no longer in the table"})
-		}
+	for ; k < len(ids); k++ {
+		rep.Changes = append(rep.Changes, Change{Kind: "removed", RowID: ids[k], Side: sts[k].side, Detail: "row sealed in the split is no longer in the table"})
 	}
 	// Added rows.
 	rows, err = conn.QueryContext(ctx, `SELECT ss_row FROM `+quoteIdent(table)+` WHERE ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?) ORDER BY ss_row`, name)
@@ -139,8 +158,8 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
 	for _, c := range changed {
-		if _, ok := st[c.RowID]; ok {
-			c.Side = st[c.RowID].side
+		if x, ok := storedAt(c.RowID); ok {
+			c.Side = x.side
 		}
 		rep.Changes = append(rep.Changes, c)
 	}

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"runtime"
 	"strings"
 	"testing"
 )
@@ -122,6 +123,9 @@ func TestExtrapolate_RecoversCurve(t *testing.T) {
 	if !(res.NStar.Lo <= trueN && trueN <= res.NStar.Hi) {
 		t.Errorf("n* interval %+v misses the true %g", *res.NStar, trueN)
 	}
+	if trueAt := Pow3(100000, 0.1, 2, 0.5); !(res.AtErr.Lo <= trueAt && trueAt <= res.AtErr.Hi) {
+		t.Errorf("error at n = 100000: interval %+v misses the true %g", *res.AtErr, trueAt)
+	}
 	if !strings.Contains(res.Verdict, "reaches the target") || !strings.Contains(res.Verdict, "not guarantees") {
 		t.Errorf("verdict %q", res.Verdict)
 	}
@@ -198,5 +202,24 @@ func BenchmarkExtrapolate(b *testing.B) {
 		if _, err := Extrapolate(pts, &Options{Target: 0.12, At: 100000}); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// TestExtrapolate_IndependentOfCores: bootstrap draws are seeded per draw, so one core and
+// several give the same result.
+func TestExtrapolate_IndependentOfCores(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 8))
+	pts := pow3Points(rng, geomSizes(200, 7, 2), 4, 0.1, 2, 0.5, 0.003)
+	o := &Options{Target: 0.13, At: 50000, Bootstrap: 200, Seed: 9}
+	prev := runtime.GOMAXPROCS(1)
+	one, err1 := Extrapolate(pts, o)
+	runtime.GOMAXPROCS(4)
+	four, err4 := Extrapolate(pts, o)
+	runtime.GOMAXPROCS(prev)
+	if err1 != nil || err4 != nil {
+		t.Fatal(err1, err4)
+	}
+	if *one.NStar != *four.NStar || *one.AtErr != *four.AtErr || one.Asymptote != four.Asymptote || one.Verdict != four.Verdict {
+		t.Errorf("1 core %+v, 4 cores %+v", *one.NStar, *four.NStar)
 	}
 }

@@ -120,7 +120,7 @@ func runSplits(ctx context.Context, o splitsOptions, w io.Writer) error {
 		fmt.Fprintln(w, "no splits (make one with: splitsmith split --db FILE --table T --name NAME)")
 		return nil
 	}
-	t := &table{Header: []string{"split", "table", "strategy", "seed", "folds", "rows", "dropped", "sides"}}
+	t := &table{Header: []string{"split", "table", "strategy", "seed", "folds", "rows", "dropped", "sides", "spec"}}
 	for _, r := range all {
 		var parts []string
 		for _, s := range r.Sides {
@@ -130,7 +130,36 @@ func runSplits(ctx context.Context, o splitsOptions, w io.Writer) error {
 		if r.FoldScheme != "" {
 			folds = fmt.Sprintf("%d %s", len(r.Folds), r.FoldScheme)
 		}
-		t.add(r.Spec.Name, r.Spec.Table, r.Strategy, r.Spec.Seed, folds, r.TableRows, r.TableRows-r.Assigned, strings.Join(parts, " "))
+		t.add(r.Spec.Name, r.Spec.Table, r.Strategy, r.Spec.Seed, folds, r.TableRows, r.TableRows-r.Assigned, strings.Join(parts, " "), specSummary(r.Spec))
 	}
 	return t.write(w, "table")
+}
+
+// specSummary renders the spec's non-default choices in flag form, for the listing.
+func specSummary(sp *splits.Spec) string {
+	var p []string
+	add := func(flag, v string) {
+		if v != "" {
+			p = append(p, "--"+flag+" "+v)
+		}
+	}
+	if sp.Strategy() != "adopted" {
+		add("sides", sp.Sides.String())
+	}
+	add("key", strings.Join(sp.Key, ","))
+	add("stratify", sp.Stratify)
+	add("group", strings.Join(sp.Group, ","))
+	add("time", sp.Time)
+	add("cutoff", sp.Cutoff)
+	add("gap", sp.Gap)
+	if sp.GapRows > 0 {
+		add("gap-rows", fmt.Sprint(sp.GapRows))
+	}
+	add("label-end", sp.LabelEnd)
+	if len(sp.Group) > 0 && sp.Time != "" {
+		add("span", sp.Span)
+	}
+	add("from-column", sp.FromColumn)
+	add("fold-column", sp.FoldColumn)
+	return strings.Join(p, " ")
 }

@@ -169,13 +169,11 @@ func (m *MinHasher) Signature(set []uint32, dst []uint32) []uint32 {
 	for i := range dst {
 		dst[i] = math.MaxUint32
 	}
-	a, b := m.a[:n], m.b[:n]
+	a, b := m.a[:len(dst)], m.b[:len(dst)]
 	for _, x := range set {
 		xx := mix64(uint64(x))
 		for i := range dst {
-			if v := uint32((a[i]*xx + b[i]) >> 32); v < dst[i] {
-				dst[i] = v
-			}
+			dst[i] = min(dst[i], uint32((a[i]*xx+b[i])>>32))
 		}
 	}
 	return dst

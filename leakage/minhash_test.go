@@ -236,3 +236,14 @@ func BenchmarkNearDuplicates_AllPairs5k(b *testing.B) {
 
 // BenchmarkNearDuplicates_LSH5k is the LSH detector on the same 5,000 texts.
 func BenchmarkNearDuplicates_LSH5k(b *testing.B) { benchNearDup(b, 5000) }
+
+// BenchmarkMinHashSignature: one 100-function signature of a 100-shingle set.
+func BenchmarkMinHashSignature(b *testing.B) {
+	m := NewMinHasher(100, 1)
+	set := DefaultShingling.ShingleSet(strings.Repeat("pipe cracked near the valve box ", 4), nil)
+	sig := make([]uint32, 100)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		sig = m.Signature(set, sig)
+	}
+}

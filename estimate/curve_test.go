@@ -261,3 +261,54 @@ func TestMetric_AgainstSklearn(t *testing.T) {
 		t.Errorf("mae %g", got)
 	}
 }
+
+// Summarise on points from known curves (constructed input): capacity 1 follows
+// 1 + 2·n^(−1/2) (asymptote 1), capacity 2 follows 0.5 + 10·n^(−1/2). They cross where
+// 0.5 = 8·n^(−1/2), n = 256; a target 0.6 is below capacity 1's asymptote and reached by
+// capacity 2 at n* = (10/0.1)² = 10,000 (pow3 closed form).
+func TestSummarise_CrossoverAndNStar(t *testing.T) {
+	sizes := []int{50, 100, 200, 400, 800, 1600, 3200, 6400}
+	rng := rand.New(rand.NewPCG(21, 22))
+	var pts []CurvePoint
+	for _, c := range []float64{1, 2} {
+		for _, n := range sizes {
+			for r := 1; r <= 4; r++ {
+				nf := float64(n)
+				h := 1 + 2/math.Sqrt(nf)
+				tr := 0.95 * h
+				if c == 2 {
+					h = 0.5 + 10/math.Sqrt(nf)
+					tr = 0.3 * h // far below holdout: variance-limited
+				}
+				h *= 1 + 0.003*rng.NormFloat64()
+				pts = append(pts, CurvePoint{Capacity: c, Size: n, Repeat: r, TrainErr: tr, HoldoutErr: h})
+			}
+		}
+	}
+	rep, err := Summarise(pts, "ridge", "mse", 6400, &Options{Families: []string{"pow3"}, Target: 0.6, Bootstrap: 200, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.BestCapacity != 2 || rep.BestNStar == nil || math.Abs(rep.BestNStar.Est/10000-1) > 0.1 {
+		t.Fatalf("best capacity %v, n* %+v; want 2, about 10000", rep.BestCapacity, rep.BestNStar)
+	}
+	for _, b := range rep.BestAt {
+		want := 2.0
+		if b.Size < 256 {
+			want = 1
+		}
+		if b.Capacity != want {
+			t.Errorf("best at n=%d: capacity %v, want %v", b.Size, b.Capacity, want)
+		}
+	}
+	c1 := rep.Capacities[0]
+	if c1.Result == nil || c1.Result.Reachable {
+		t.Errorf("capacity 1 should not reach 0.6 (asymptote 1): %+v", c1.Result)
+	}
+	for _, want := range []string{"reached soonest with degree 2", "degree 1 the target is at or below the fitted asymptote",
+		"degree 1 for n = 50 to 200, then degree 2 for n = 400 to 6400", "Variance-limited (overfitting) at the largest size: degree 2", Caution} {
+		if !strings.Contains(rep.Verdict, want) {
+			t.Errorf("verdict lacks %q:\n%s", want, rep.Verdict)
+		}
+	}
+}

@@ -223,3 +223,41 @@ func TestExtrapolate_IndependentOfCores(t *testing.T) {
 		t.Errorf("1 core %+v, 4 cores %+v", *one.NStar, *four.NStar)
 	}
 }
+
+// TestVerdict covers each reachability sentence on constructed results.
+func TestVerdict(t *testing.T) {
+	base := func() *Result {
+		return &Result{Best: Fit{Family: "pow3", BacktestErr: 0.02}, Sizes: []float64{100, 1000}, Level: 0.95,
+			Asymptote: Interval{Est: 0.1, Lo: 0.08, Hi: 0.12, Method: "bca"}, Reachable: true}
+	}
+	cases := []struct {
+		name   string
+		target float64
+		nstar  Interval
+		reach  bool
+		want   string
+	}{
+		{"below asymptote", 0.09, Interval{Est: inf, Lo: inf, Hi: inf}, false, "at or below the asymptote: not reachable with this capacity"},
+		{"inside its interval", 0.11, Interval{Est: 5000, Lo: 3000, Hi: inf}, false, "lies within the asymptote's interval: it may not be reachable"},
+		{"within the data", 0.2, Interval{Est: 500, Lo: 400, Hi: 600}, true, "already reaches the target 0.2 within the measured sizes"},
+		{"extrapolated", 0.15, Interval{Est: 4000, Lo: 3000, Hi: 6000}, true, "reaches the target 0.15 at n* ≈ 4000"},
+		{"far", 0.13, Interval{Est: 50000, Lo: 20000, Hi: 90000}, true, "far beyond the measured sizes"},
+		{"absurdly far", 0.13, Interval{Est: 5e7, Lo: 1e6, Hi: inf}, true, "more than 1000× beyond the measured sizes"},
+	}
+	for _, c := range cases {
+		r := base()
+		ns := c.nstar
+		r.NStar, r.Reachable = &ns, c.reach
+		v := verdict(r, Options{Target: c.target})
+		if !strings.Contains(v, c.want) || !strings.Contains(v, Caution) {
+			t.Errorf("%s: verdict %q lacks %q", c.name, v, c.want)
+		}
+	}
+	r := base()
+	r.Asymptote = Interval{Method: "none"}
+	ns := Interval{Est: inf, Lo: inf, Hi: inf}
+	r.NStar, r.Reachable = &ns, false
+	if v := verdict(r, Options{Target: 0.05}); !strings.Contains(v, "falls so slowly") {
+		t.Errorf("no asymptote, never reached: %q", v)
+	}
+}

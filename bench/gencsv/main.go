@@ -41,7 +41,7 @@ func write(f *os.File, rows int, seed uint64) error {
 		b = append(b, ',')
 		b = strconv.AppendInt(b, int64(1+r.IntN(200000)), 10)
 		b = append(b, ',')
-		b = base.Add(time.Duration(r.Int64N(6*365*24*3600)) * time.Second).AppendFormat(b, time.RFC3339)
+		b = base.Add(time.Duration(r.Int64N(6*365*24*3600))*time.Second).AppendFormat(b, time.RFC3339)
 		b = append(b, ',')
 		b = strconv.AppendFloat(b, 200+600*r.Float64(), 'f', 3, 64)
 		b = append(b, ',')

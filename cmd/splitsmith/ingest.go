@@ -53,7 +53,7 @@ Examples:
 			&cli.StringFlag{Name: "table", Usage: "target `NAME` (default: the first input's name without extensions)"},
 			&cli.StringFlag{Name: "format", Usage: "input `FORMAT` for every input: csv, tsv or jsonl (default: from the extension)"},
 			&cli.StringSliceFlag{Name: "schema", Usage: "`COL=TYPE,...` overriding inference (types: integer, real, boolean, date, timestamp, text)"},
-			&cli.StringFlag{Name: "on-error", Value: "fail", Usage: "bad rows: fail, skip or quarantine (into ss_rejects)"},
+			&cli.StringFlag{Name: "on-error", Value: "fail", Usage: "what to do with bad rows: `MODE` fail, skip or quarantine (into ss_rejects)"},
 			&cli.BoolFlag{Name: "replace", Usage: "replace an existing table of that name"},
 			&cli.BoolFlag{Name: "append", Usage: "add rows to an existing ingested table (same columns; values must fit its types)"},
 			&cli.StringFlag{Name: "missing", Value: strings.Join(ingest.DefaultMissing, ","), Usage: "comma-separated `TOKENS` read as NULL besides the empty string"},

@@ -447,7 +447,11 @@ func runEstimateCurve(ctx context.Context, cc *cli.Context, o curveOptions, s st
 // writeCurvePlot renders the curves to path atomically (temporary file, then rename).
 func writeCurvePlot(path string, r *curveResult) error {
 	title := fmt.Sprintf("%s on split %s: %s %s", r.Label, r.Split, r.Model, r.Metric)
-	pl, err := estimate.PlotCurves(r.points, r.report, estimate.PlotOptions{Title: title, YLabel: r.Metric})
+	ylab := r.Metric
+	if ylab == "auc" {
+		ylab = "1 − AUC"
+	}
+	pl, err := estimate.PlotCurves(r.points, r.report, estimate.PlotOptions{Title: title, YLabel: ylab})
 	if err != nil {
 		return fmt.Errorf("plot %s: %w", path, err)
 	}

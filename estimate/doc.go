@@ -28,8 +28,11 @@
 //	exp3  a + b·e^(−c·n)    n* = ln(b/(T−a))/c
 //	log2  a + b·ln n        n* = e^((T−a)/b), b < 0   (no asymptote; reported as 0)
 //
-// Predict evaluates a fitted family; NStar solves for n* (closed form where one exists,
-// bracketing and bisection on ln n otherwise).
+// Predict evaluates a fitted family; n* comes from each family's closed form, or from
+// NStarNumeric (bracketing and bisection on ln n) for a family without one. FitFamily is the
+// exact fit Extrapolate reports for one family. SaveResult, SavePoints and SaveSampleSize
+// write ss_est_estimates, ss_est_fits, ss_est_points and ss_est_criteria (migration 0005)
+// inside the caller's transaction; PlotPoints draws a result for estimate points --plot.
 //
 // # Least squares
 //

@@ -507,7 +507,11 @@ func printCurve(w io.Writer, r *curveResult, format string) error {
 		fmt.Fprintf(w, "  note: %s\n", n)
 	}
 	fmt.Fprintln(w)
-	t := &table{Header: []string{"capacity", "n", "train " + r.Metric, "holdout " + r.Metric, "holdout sd", "best"}}
+	ml := r.Metric
+	if ml == "auc" {
+		ml = "1−auc"
+	}
+	t := &table{Header: []string{"capacity", "n", "train " + ml, "holdout " + ml, "holdout sd", "best"}}
 	for _, m := range r.Measured {
 		best := ""
 		if m.BestAtSize {

@@ -3,6 +3,7 @@ package ingest
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -390,22 +391,14 @@ type profBad struct {
 // typedPass streams a column once and returns its conforming values (as numbers) with their
 // lines, and its nonconforming values with counts and first lines.
 func typedPass(ctx context.Context, conn *sql.Conn, t, q, kind string) (vals []profVal, bads map[string]*profBad, nonMissing int64, err error) {
-	rows, err := conn.QueryContext(ctx, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`)
-	if err != nil {
-		return nil, nil, 0, err
-	}
-	defer rows.Close()
 	bads = map[string]*profBad{}
-	for rows.Next() {
-		var line int64
-		var v any
-		if err := rows.Scan(&line, &v); err != nil {
-			return nil, nil, 0, err
-		}
+	err = rawQuery(ctx, conn, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`, 2, func(row []driver.Value) (bool, error) {
+		line, _ := row[0].(int64)
+		v := row[1]
 		nonMissing++
 		if f, ok := profScalar(kind, v); ok {
 			vals = append(vals, profVal{f, line})
-			continue
+			return true, nil
 		}
 		key := cellText(v)
 		b := bads[key]
@@ -422,8 +415,9 @@ func typedPass(ctx context.Context, conn *sql.Conn, t, q, kind string) (vals []p
 		if len(b.lines) < maxExampleLines {
 			b.lines = append(b.lines, line)
 		}
-	}
-	return vals, bads, nonMissing, rows.Err()
+		return true, nil
+	})
+	return vals, bads, nonMissing, err
 }
 
 // profileColumn profiles one column with one streaming pass for typed columns and two or

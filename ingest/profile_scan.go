@@ -3,7 +3,9 @@ package ingest
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"fmt"
+	"io"
 	"math"
 	"slices"
 	"strconv"
@@ -104,24 +106,15 @@ type profScan struct {
 }
 
 func scanColumn(ctx context.Context, conn *sql.Conn, t, q string, classify bool) (*profScan, error) {
-	rows, err := conn.QueryContext(ctx, `SELECT `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
 	ps := &profScan{}
 	var hashes []uint64
 	var pairs []profPair
-	for rows.Next() {
-		var v any
-		if err := rows.Scan(&v); err != nil {
-			return nil, err
-		}
+	err := rawQuery(ctx, conn, `SELECT `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL`, 1, func(vals []driver.Value) (bool, error) {
 		ps.nonMissing++
-		h, s, isText := profHash(v)
+		h, s, isText := profHash(vals[0])
 		hashes = append(hashes, h)
 		if !isText {
-			continue
+			return true, nil
 		}
 		ps.text++
 		pairs = append(pairs, profPair{profNormHash(s), h})
@@ -134,8 +127,9 @@ func scanColumn(ctx context.Context, conn *sql.Conn, t, q string, classify bool)
 				ps.nTS++
 			}
 		}
-	}
-	if err := rows.Err(); err != nil {
+		return true, nil
+	})
+	if err != nil {
 		return nil, err
 	}
 
@@ -243,29 +237,66 @@ func fetchValues(ctx context.Context, conn *sql.Conn, t, q string, want map[uint
 	if len(want) == 0 {
 		return out, nil
 	}
-	rows, err := conn.QueryContext(ctx, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
-	for rows.Next() {
-		var line int64
-		var v any
-		if err := rows.Scan(&line, &v); err != nil {
-			return nil, err
-		}
-		h, _, _ := profHash(v)
+	err := rawQuery(ctx, conn, `SELECT ss_line, `+q+` FROM `+t+` WHERE `+q+` IS NOT NULL ORDER BY ss_row`, 2, func(vals []driver.Value) (bool, error) {
+		h, _, _ := profHash(vals[1])
 		if want[h] {
 			if _, done := out[h]; !done {
+				v := vals[1]
 				if b, ok := v.([]byte); ok {
 					v = string(b)
 				}
+				line, _ := vals[0].(int64)
 				out[h] = fetched{v, line}
 				if len(out) == len(want) {
-					break
+					return false, nil
 				}
 			}
 		}
-	}
-	return out, rows.Err()
+		return true, nil
+	})
+	return out, err
+}
+
+// rawQuery runs a query through the driver's own statement interface and calls fn with each
+// row's values (valid only during the call): database/sql's per-row locking and conversion
+// cost more than SQLite's own work on a full-table scan.
+func rawQuery(ctx context.Context, conn *sql.Conn, query string, ncols int, fn func(v []driver.Value) (bool, error)) error {
+	return conn.Raw(func(dc any) error {
+		pc, ok := dc.(driver.ConnPrepareContext)
+		if !ok {
+			return fmt.Errorf("profile: driver connection cannot prepare")
+		}
+		st, err := pc.PrepareContext(ctx, query)
+		if err != nil {
+			return err
+		}
+		defer st.Close()
+		sq, ok := st.(driver.StmtQueryContext)
+		if !ok {
+			return fmt.Errorf("profile: driver statement cannot query")
+		}
+		rows, err := sq.QueryContext(ctx, nil)
+		if err != nil {
+			return err
+		}
+		defer rows.Close()
+		vals := make([]driver.Value, ncols)
+		for n := 0; ; n++ {
+			if n&4095 == 0 {
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+			}
+			if err := rows.Next(vals); err != nil {
+				if err == io.EOF {
+					return nil
+				}
+				return err
+			}
+			more, err := fn(vals)
+			if err != nil || !more {
+				return err
+			}
+		}
+	})
 }

@@ -53,14 +53,17 @@ type NearPair struct {
 
 // NearDupResult holds the confirmed pairs and what it took to find them.
 type NearDupResult struct {
-	Pairs      []NearPair // sorted by A, then B
+	// Copies are groups of texts with identical shingle sets on more than one side (indexes
+	// ascending, groups ordered by their first index): Jaccard 1 between every two members.
+	Copies     [][]int
+	Pairs      []NearPair // the other confirmed pairs, sorted by A, then B
 	Candidates int        // distinct candidate pairs of distinct shingle sets checked exactly
 	Truncated  bool       // MaxPairs was reached
 }
 
 // NearDuplicates finds pairs of texts on different sides (side[i] < 0 leaves text i out)
-// whose exact shingle Jaccard similarity is at least the threshold, without comparing all
-// pairs: MinHash signatures, LSH banding (Mining of Massive Datasets §3.4) to pick
+// whose exact shingle Jaccard similarity is at least the threshold (texts with identical
+// shingle sets come back as groups, Copies), without comparing all pairs: MinHash signatures, LSH banding (Mining of Massive Datasets §3.4) to pick
 // candidates, exact Jaccard to confirm them. Texts with identical shingle sets are grouped
 // first, so exact copies cost nothing extra. Work is spread over Workers goroutines; the
 // result does not depend on their number.
@@ -240,16 +243,22 @@ func NearDuplicates(texts []string, side []int, opts NearDupOptions) (NearDupRes
 		res.Pairs = append(res.Pairs, NearPair{A: int(x), B: int(y), Jaccard: j})
 		return true
 	}
-	// Exact copies within a group.
+	// Exact copies: one group each.
 	for _, g := range groups {
-		for x := 0; x < len(g); x++ {
-			for y := x + 1; y < len(g); y++ {
-				if !emit(g[x], g[y], 1) {
-					goto sorted
-				}
+		sides := map[int]bool{}
+		for _, m := range g {
+			sides[side[m]] = true
+		}
+		if len(sides) > 1 {
+			c := make([]int, len(g))
+			for i, m := range g {
+				c[i] = int(m)
 			}
+			slices.Sort(c)
+			res.Copies = append(res.Copies, c)
 		}
 	}
+	slices.SortFunc(res.Copies, func(x, y []int) int { return x[0] - y[0] })
 	for k, c := range cand {
 		if conf[k] < o.Threshold {
 			continue

@@ -171,6 +171,22 @@ func TestNearDuplicates_RecallAgainstBruteForce(t *testing.T) {
 		t.Fatal(err)
 	}
 	found := 0
+	inCopy := map[[2]int]bool{}
+	for _, g := range res.Copies {
+		for x := 0; x < len(g); x++ {
+			for y := x + 1; y < len(g); y++ {
+				if side[g[x]] != side[g[y]] {
+					inCopy[[2]int{g[x], g[y]}] = true
+				}
+			}
+		}
+	}
+	for p := range inCopy {
+		if truth[p] != 1 {
+			t.Errorf("copy pair %v has J=%v, want 1", p, truth[p])
+		}
+		found++
+	}
 	for _, p := range res.Pairs {
 		want, ok := truth[[2]int{p.A, p.B}]
 		if !ok {
@@ -192,7 +208,7 @@ func TestNearDuplicates_RecallAgainstBruteForce(t *testing.T) {
 	}
 	// Deterministic and independent of the worker count.
 	res1, _ := NearDuplicates(texts, side, NearDupOptions{Workers: 1})
-	if !slices.Equal(res.Pairs, res1.Pairs) {
+	if !slices.Equal(res.Pairs, res1.Pairs) || fmt.Sprint(res.Copies) != fmt.Sprint(res1.Copies) {
 		t.Error("results differ with one worker")
 	}
 }

@@ -1,6 +1,10 @@
 package leakage
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+	"sort"
+)
 
 func runNearDuplicateText(a *audit) error {
 	sh := Shingling{K: int(a.p("k")), Words: a.p("words") != 0}
@@ -24,15 +28,30 @@ func runNearDuplicateText(a *audit) error {
 		if err != nil {
 			return err
 		}
+		var fs []Finding
+		for _, g := range res.Copies {
+			idx := make([]int32, len(g))
+			for i, m := range g {
+				idx[i] = int32(m)
+			}
+			s := a.groupSides(idx)
+			fs = append(fs, Finding{Severity: Error, Subject: col, Sides: s, Score: 1, Query: a.queryName(col),
+				Message:  fmt.Sprintf("%d rows carry the same %s (identical shingle sets): %s", len(g), col, sideSummary(s)),
+				Evidence: map[string]any{"shingle": sh.Unit(), "k": sh.K, "copies": len(g)}})
+		}
 		for _, p := range res.Pairs {
 			sev := Warn
 			if p.Jaccard >= errAt {
 				sev = Error
 			}
 			s := a.groupSides([]int32{int32(p.A), int32(p.B)})
-			a.add(Finding{Severity: sev, Subject: col, Sides: s, Score: p.Jaccard, Query: a.queryName(col),
+			fs = append(fs, Finding{Severity: sev, Subject: col, Sides: s, Score: p.Jaccard, Query: a.queryName(col),
 				Message:  fmt.Sprintf("%s of row %d (%s) and row %d (%s) have shingle Jaccard %.3f", col, a.rowID[p.A], a.sides[a.side[p.A]].Name, a.rowID[p.B], a.sides[a.side[p.B]].Name, p.Jaccard),
 				Evidence: map[string]any{"shingle": sh.Unit(), "k": sh.K}})
+		}
+		sort.SliceStable(fs, func(i, j int) bool { return minRow(fs[i]) < minRow(fs[j]) })
+		for _, f := range fs {
+			a.add(f)
 		}
 		if res.Truncated {
 			a.add(Finding{Severity: Warn, Subject: col, Score: float64(len(res.Pairs)),
@@ -52,4 +71,14 @@ SELECT seq, ra, rb, score, recomputed FROM j WHERE recomputed < %v OR abs(recomp
 			Description: fmt.Sprintf("recomputes the exact shingle Jaccard of every stored near-duplicate pair of %s; no rows = every pair is confirmed (pairs the detector missed are not checked: that needs all pairs)", col)})
 	}
 	return nil
+}
+
+func minRow(f Finding) int64 {
+	m := int64(math.MaxInt64)
+	for _, s := range f.Sides {
+		for _, r := range s.Rows {
+			m = min(m, r)
+		}
+	}
+	return m
 }

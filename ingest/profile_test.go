@@ -308,3 +308,30 @@ func BenchmarkProfileBaselineSQL(b *testing.B) {
 		}
 	}
 }
+
+func TestProfile_TimestampBooleanAndInfinity(t *testing.T) {
+	var rows [][]any
+	for i := 0; i < 40; i++ {
+		rows = append(rows, []any{fmt.Sprintf("2024-03-01T08:%02d:00Z", i), int64(i % 2), float64(i)})
+	}
+	rows = append(rows, []any{"2024-03-01T09:00:00Z", int64(1), math.Inf(1)})
+	withTx(t, func(ctx context.Context, tx *store.Tx) error {
+		makeTable(t, tx.Conn, "ts", []string{"at", "ok", "x"}, []string{"TIMESTAMP", "BOOLEAN", "REAL"}, rows)
+		res, err := Profile(ctx, tx.Conn, ProfileOptions{Table: "ts"})
+		if err != nil {
+			return err
+		}
+		at, ok, x := res.Columns[0], res.Columns[1], res.Columns[2]
+		if at.Kind != kindTimestamp || at.Min != "2024-03-01T08:00:00Z" || at.Max != "2024-03-01T09:00:00Z" || at.Mean != nil {
+			t.Errorf("timestamp column %+v", at)
+		}
+		if ok.Kind != kindBoolean || *ok.Mean != 21.0/41 || ok.Outliers != nil || ok.Distinct != 2 {
+			t.Errorf("boolean column %+v", ok)
+		}
+		// +Inf is not a usable number: reported as nonconforming, kept out of the statistics.
+		if x.Nonconforming != 1 || *x.Mean != 19.5 || len(findingsOf(res, "type_conformity", "x")) != 1 {
+			t.Errorf("infinity: %+v", x)
+		}
+		return StoreProfile(ctx, tx.Conn, tx.RunID, res)
+	})
+}

@@ -61,6 +61,9 @@ func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
 	}
 	for range full { // drain, so the producer finishes (and perr is visible) before we go on
 	}
+	if err := ctx.Err(); err != nil {
+		return nil, err // interrupted: report that, not the statement the interrupt broke
+	}
 	if cerr != nil {
 		return nil, cerr
 	}

@@ -142,6 +142,9 @@ func Load(ctx context.Context, conn *sql.Conn, inputs []Input, opts Options) (*R
 	if err := l.pass1(ctx); err != nil {
 		return nil, err
 	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
 	if err := l.create(ctx, conn); err != nil {
 		return nil, err
 	}

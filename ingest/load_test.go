@@ -499,3 +499,32 @@ func TestLoad_ManyBatchesAcrossInputs(t *testing.T) {
 		t.Errorf("ss_rejects has %v rows", n)
 	}
 }
+
+// A cancelled load (Ctrl-C) returns the context's error and writes nothing.
+func TestLoad_Cancelled(t *testing.T) {
+	file := benchCSV(t, 60000) // over 4 MiB, so pass 2 reports progress before its end
+	path := filepath.Join(t.TempDir(), "t.db")
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	var inPass2 bool
+	err := store.Update(ctx, path, store.Options{SQL: []sqlfn.Set{SQL()}}, true, store.Run{Command: "ingest"},
+		func(ctx context.Context, tx *store.Tx) error {
+			_, err := Load(ctx, tx.Conn, []Input{{Name: file}}, Options{Table: "t", RunID: tx.RunID,
+				Progress: func(done, total int64) {
+					if done > total/2 && done < total {
+						inPass2 = true
+						cancel()
+					}
+				}})
+			return err
+		})
+	if !inPass2 {
+		t.Fatal("progress never reported during pass 2")
+	}
+	if !errors.Is(err, context.Canceled) {
+		t.Errorf("err = %v, want context.Canceled", err)
+	}
+	if _, serr := os.Stat(path); serr == nil {
+		t.Errorf("a cancelled load created %s", path)
+	}
+}

@@ -214,10 +214,10 @@ func (c *countReader) Read(p []byte) (int, error) {
 		}
 		c.n += int64(n)
 		c.pending += int64(n)
-		if c.count != nil && (c.pending >= 4<<20 || err != nil) {
-			c.count(c.pending)
-			c.pending = 0
-		}
+	}
+	if c.count != nil && c.pending > 0 && (c.pending >= 4<<20 || err != nil) {
+		c.count(c.pending)
+		c.pending = 0
 	}
 	return n, err
 }

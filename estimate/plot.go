@@ -12,6 +12,7 @@ import (
 	"math"
 	"path/filepath"
 	"sort"
+	"strconv"
 	"strings"
 
 	"gonum.org/v1/plot"
@@ -49,7 +50,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 	p.X.Label.Text = "training size n (log scale)"
 	p.Y.Label.Text = po.YLabel + " (log scale)"
 	p.X.Scale, p.Y.Scale = plot.LogScale{}, plot.LogScale{}
-	p.X.Tick.Marker, p.Y.Tick.Marker = plot.LogTicks{Prec: -1}, plot.LogTicks{Prec: -1}
+	p.X.Tick.Marker, p.Y.Tick.Marker = logTicks{}, logTicks{}
 	p.Legend.Top = true
 	p.Legend.TextStyle.Font.Size = vg.Points(8)
 
@@ -242,6 +243,32 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 	p.X.Min, p.X.Max = nMin/1.3, xEnd*1.1
 	p.Add(plotter.NewGrid())
 	return p, nil
+}
+
+// logTicks labels 1, 2 and 5 times each power of ten (minor ticks at the other integers), so
+// a log axis spanning less than a decade still has labels.
+type logTicks struct{}
+
+func (logTicks) Ticks(min, max float64) []plot.Tick {
+	if !(min > 0) || !(max > min) {
+		return nil
+	}
+	var ticks []plot.Tick
+	for e := math.Floor(math.Log10(min)); e <= math.Ceil(math.Log10(max)); e++ {
+		base := math.Pow(10, e)
+		for m := 1; m <= 9; m++ {
+			v := float64(m) * base
+			if v < min || v > max {
+				continue
+			}
+			t := plot.Tick{Value: v}
+			if m == 1 || m == 2 || m == 5 {
+				t.Label = strconv.FormatFloat(v, 'g', 6, 64)
+			}
+			ticks = append(ticks, t)
+		}
+	}
+	return ticks
 }
 
 // SavePlot writes the plot to path as SVG or PNG (by the extension), 8 × 5.5 inches.

@@ -142,9 +142,10 @@ type audit struct {
 	workers   int
 	// significant digits to load rounded forms for: REAL columns, and all numeric columns
 	roundReal, roundAll []int
-	needed              map[string]bool // columns the selected checks read
-	rawNeeded           map[string]bool // columns read as values, not only in rounded form
-	useDigest           bool            // load ss_digest
+	needed              map[string]bool     // columns the selected checks read
+	rawNeeded           map[string]bool     // columns read as values, not only in rounded form
+	useDigest           bool                // load ss_digest
+	sqlKeys             map[string][]string // key SQL -> each row's key, built by SQLite
 	digest              []int64
 }
 
@@ -214,14 +215,31 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 		raw(a.label)
 	}
 	raw(a.text...)
+	// When no check needs the feature values themselves, SQLite builds the duplicate keys
+	// while it reads (one value per row instead of one per column).
+	keysInSQL := true
+	for _, c := range run {
+		if c == LeakingFeature || c == DistributionShift {
+			keysInSQL = false
+		}
+	}
+	a.sqlKeys = map[string][]string{}
 	for _, c := range run {
 		switch c {
 		case ExactDuplicate, LabelConflict, NearDuplicateNumeric:
 			a.check = ExactDuplicate
 			k := a.featureKey()
-			if k.digest {
+			switch {
+			case k.digest:
 				a.useDigest = true
-			} else {
+			case keysInSQL:
+				a.sqlKeys[a.keySQL(k, "t")] = nil
+				if c == NearDuplicateNumeric {
+					a.check = c
+					d := int(a.p("digits"))
+					a.sqlKeys[a.keySQL(keySpec{cols: a.feature, normalize: true, realDig: d, intDig: d}, "t")] = nil
+				}
+			default:
 				need(a.feature...)
 				a.roundReal = append(a.roundReal, k.realDig)
 			}
@@ -233,7 +251,7 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			raw(a.timeCol)
 			raw(a.entity...)
 		}
-		if c == NearDuplicateNumeric {
+		if c == NearDuplicateNumeric && !keysInSQL {
 			a.check = c
 			a.roundAll = append(a.roundAll, int(a.p("digits")))
 		}
@@ -556,6 +574,14 @@ func (a *audit) loadRows() error {
 			fmt.Fprintf(&sel, ", %s", RoundSignificantSQL("t."+quoteIdent(c.Name), d))
 		}
 	}
+	var keyExprs []string
+	for e := range a.sqlKeys {
+		keyExprs = append(keyExprs, e)
+	}
+	sort.Strings(keyExprs)
+	for _, e := range keyExprs {
+		fmt.Fprintf(&sel, ", %s", e)
+	}
 	fmt.Fprintf(&sel, ` FROM ss_split_rows r JOIN %s t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side <> '' ORDER BY r.row_id`, quoteIdent(a.table))
 	rows, err := a.conn.QueryContext(a.ctx, sel.String(), a.split)
 	if err != nil {
@@ -564,7 +590,7 @@ func (a *audit) loadRows() error {
 	defer rows.Close()
 	report, end := a.progress("audit: reading rows")
 	defer end()
-	vals := make([]any, first+len(cols)+len(rounds))
+	vals := make([]any, first+len(cols)+len(rounds)+len(keyExprs))
 	ptrs := make([]any, len(vals))
 	for i := range vals {
 		ptrs[i] = &vals[i]
@@ -598,6 +624,9 @@ func (a *audit) loadRows() error {
 		}
 		for k, r := range rounds {
 			r.col.rounded[r.d] = append(r.col.rounded[r.d], asString(vals[first+len(cols)+k]))
+		}
+		for k, e := range keyExprs {
+			a.sqlKeys[e] = append(a.sqlKeys[e], asString(vals[first+len(cols)+len(rounds)+k]))
 		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)

@@ -295,3 +295,23 @@ func TestRun_ExactDuplicateRawAndDigest(t *testing.T) {
 		t.Errorf("raw path: %v", g)
 	}
 }
+
+func TestRun_KeysBuiltBySQLiteEqualGo(t *testing.T) {
+	// With only key checks selected SQLite builds the keys while reading; with a check that
+	// needs the values, Go builds them. Both must give the same findings (constructed fixture).
+	path := pipesFixture().create(t)
+	keyChecks := []string{"exact_duplicate", "near_duplicate_numeric", "label_conflict"}
+	sqlRep, err := runAudit(t, path, Options{Split: "naive", Label: "failed", Checks: keyChecks})
+	if err != nil {
+		t.Fatal(err)
+	}
+	goRep, err := runAudit(t, path, Options{Split: "naive", Label: "failed", Checks: append(keyChecks, "leaking_feature")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range keyChecks {
+		if a, b := fmt.Sprint(summarize(sqlRep, c)), fmt.Sprint(summarize(goRep, c)); a != b || a == "[]" {
+			t.Errorf("%s: SQLite keys %s, Go keys %s", c, a, b)
+		}
+	}
+}

@@ -76,7 +76,7 @@ func (a *audit) keySQL(k keySpec, alias string) string {
 	}
 	var parts []string
 	for _, name := range k.cols {
-		c := a.data[name]
+		c := a.colType(name)
 		x := alias + "." + quoteIdent(name)
 		var s string
 		switch {
@@ -99,6 +99,21 @@ func (a *audit) keySQL(k keySpec, alias string) string {
 // keys computes every row's key hash (FNV-1a 64 over the same bytes keySQL builds).
 func (a *audit) keys(k keySpec) []uint64 {
 	out := make([]uint64, len(a.rowID))
+	if ks, ok := a.sqlKeys[a.keySQL(k, "t")]; ok {
+		// Built by SQLite while the rows were read: hash the same bytes.
+		parallel(len(out), a.workers, func(lo, hi int) {
+			for i := lo; i < hi; i++ {
+				h := uint64(fnvOffset)
+				s := ks[i]
+				for j := 0; j < len(s); j++ {
+					h ^= uint64(s[j])
+					h *= fnvPrime
+				}
+				out[i] = h
+			}
+		})
+		return out
+	}
 	if k.digest {
 		for i, d := range a.digest {
 			out[i] = uint64(d)

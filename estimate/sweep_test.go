@@ -117,3 +117,37 @@ func TestSweep_QRPathMatchesDenseQR(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkCurves_KNN_3Ks8Sizes5Repeats20k shows k-nearest neighbours' cost (a k-d tree built
+// per (repeat, size); every training and holdout row queried): k = 1, 5, 25, 20,000 training
+// rows with 3 features, 5,000 holdout rows.
+func BenchmarkCurves_KNN_3Ks8Sizes5Repeats20k(b *testing.B) {
+	train := sweepBenchData(3, 20000)
+	hold := sweepBenchData(4, 5000)
+	o := &CurveOptions{Model: "knn", Capacities: []float64{1, 5, 25}, Repeats: 5}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := MeasureCurves(context.Background(), train, hold, o); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkCurves_Logistic_3Degrees8Sizes5Repeats20k: logistic regression (IRLS) at degrees
+// 1–3 on 20,000 training rows with 3 features; every (degree, size, repeat) is its own fit.
+func BenchmarkCurves_Logistic_3Degrees8Sizes5Repeats20k(b *testing.B) {
+	train := sweepBenchData(5, 20000)
+	hold := sweepBenchData(6, 5000)
+	for _, d := range []*Data{&train, &hold} {
+		for i := range d.Y {
+			d.Y[i] = b2f(d.Y[i] > 0.4)
+		}
+	}
+	o := &CurveOptions{Model: "logistic", Capacities: []float64{1, 2, 3}, Repeats: 5}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := MeasureCurves(context.Background(), train, hold, o); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -177,11 +177,15 @@ func (c *csvReader) next() (bool, error) {
 		r := &c.r0
 		r.raw = c.buf[c.pos:n]
 		r.line = c.line
-		c.line += int64(bytes.Count(r.raw, []byte{'\n'}))
-		c.pos = n
-		if !bytes.HasSuffix(r.raw, []byte{'\n'}) && c.pos == c.end {
-			// last record without a newline: counted its inner newlines only
+		if c.noQuote || !c.quoted {
+			// one line: the record ends at its only newline (or at the end of the input)
+			if len(r.raw) > 0 && r.raw[len(r.raw)-1] == '\n' {
+				c.line++
+			}
+		} else {
+			c.line += int64(bytes.Count(r.raw, []byte{'\n'}))
 		}
+		c.pos = n
 		r.raw = bytes.TrimSuffix(bytes.TrimSuffix(r.raw, []byte{'\n'}), []byte{'\r'})
 		c.fields = c.fields[:0]
 		for _, s := range c.spans {
@@ -237,6 +241,23 @@ func (c *csvReader) parse(p int) (int, error) {
 	findLineEnd(p)
 	// Most records hold no quote at all: then no field needs the bare-quote check.
 	c.noQuote = c.quoted && bytes.IndexByte(buf[p:lineEnd], '"') < 0
+	if (c.noQuote || !c.quoted) && (lineEnd < len(buf) || c.eof) {
+		// Fast path: one line, no quotes; fields are short, so a byte loop beats a search
+		// call per field.
+		end := lineEnd
+		if end > p && buf[end-1] == '\r' {
+			end--
+		}
+		start := p
+		for j := p; j < end; j++ {
+			if buf[j] == c.comma {
+				c.spans = append(c.spans, span{a: start, b: j})
+				start = j + 1
+			}
+		}
+		c.spans = append(c.spans, span{a: start, b: end})
+		return min(lineEnd+1, len(buf)), nil
+	}
 	for {
 		if c.quoted && p < len(buf) && buf[p] == '"' {
 			// Quoted field (RFC 4180 §2.5–2.7).

@@ -101,6 +101,8 @@ type loader struct {
 	stats    []colStat
 	types    []Type
 	missing  [][]byte
+	missLen  [16]bool // missLen[n]: some missing token has length n
+	missLong bool     // some token is 16 bytes or longer
 	lenient  []bool
 	problems []Problem
 	total    int64
@@ -178,6 +180,11 @@ func (l *loader) check(inputs []Input) error {
 	}
 	for _, m := range o.Missing {
 		l.missing = append(l.missing, []byte(m))
+		if len(m) < len(l.missLen) {
+			l.missLen[len(m)] = true
+		} else {
+			l.missLong = true
+		}
 	}
 	if o.BatchRows <= 0 {
 		o.BatchRows = 150
@@ -332,8 +339,11 @@ func (l *loader) progress(n int64) {
 }
 
 func (l *loader) isMissing(b []byte) bool {
-	if b == nil || len(b) == 0 {
+	if len(b) == 0 {
 		return true
+	}
+	if len(b) < len(l.missLen) && !l.missLen[len(b)] || len(b) >= len(l.missLen) && !l.missLong {
+		return false // no token has this length
 	}
 	for _, m := range l.missing {
 		if len(m) == len(b) && string(m) == string(b) {

@@ -428,7 +428,9 @@ func nullable(v float64) any {
 }
 
 // SaveCurves writes a run's measured points and fits into ss_est_curve_runs,
-// ss_est_curve_points and ss_est_curve_fits (inside the caller's transaction).
+// ss_est_curve_points and ss_est_curve_fits, and each capacity's extrapolation (every family
+// tried) into ss_est_fits and ss_est_estimates under the subject
+// "curve:<split>:<model>:<capacity>" (inside the caller's transaction).
 func SaveCurves(ctx context.Context, conn *sql.Conn, cr *CurveRun) error {
 	js := func(v any) string {
 		b, _ := json.Marshal(v)
@@ -492,6 +494,20 @@ func SaveCurves(ctx context.Context, conn *sql.Conn, cr *CurveRun) error {
 			vals = append(vals, vl, ge, r.Verdict)
 		} else {
 			vals = append(vals, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, nil, "no curve could be fitted: "+c.Err)
+		}
+		if c.Result != nil {
+			// Every family's fit and the extrapolation also go where estimate points puts
+			// them, under the subject curve:<split>:<model>:<capacity>.
+			n := 0
+			for _, p := range cr.Points {
+				if p.Capacity == c.Capacity {
+					n++
+				}
+			}
+			subject := fmt.Sprintf("curve:%s:%s:%g", cr.Spec.Split, cr.Options.Model, c.Capacity)
+			if err := SaveResult(ctx, conn, cr.RunID, subject, c.Result, &Options{Target: rep.Target, At: rep.At, Seed: cr.Options.Seed}, n); err != nil {
+				return err
+			}
 		}
 		if _, err := conn.ExecContext(ctx, `INSERT INTO ss_est_curve_fits (run_id, capacity, family, params_json, backtest_err, aic,
 			asymptote, asymptote_lo, asymptote_hi, nstar, nstar_lo, nstar_hi, reachable, at_err, at_lo, at_hi, interval_method,

@@ -84,6 +84,8 @@ Examples:
 			&cli.Float64Flag{Name: "at", Usage: "planned training size `N`: report the error expected there"},
 			&cli.IntFlag{Name: "bootstrap", Value: 1000, Usage: "bootstrap refits `B` per capacity for the intervals"},
 			&cli.Float64Flag{Name: "level", Value: 0.95, Usage: "confidence `LEVEL` of the intervals"},
+			&cli.Float64Flag{Name: "ridge", Value: estimate.DefaultRidge, Usage: "ridge penalty `λ` per training row on the standardised coefficients (0 = none)"},
+			&cli.Float64Flag{Name: "l2", Value: estimate.DefaultL2, Usage: "logistic L2 penalty `λ` (scikit-learn's 1/C; 0 = none)"},
 			&cli.StringFlag{Name: "train-side", Usage: "train on this `SIDE` (default: the sides whose role is train)"},
 			&cli.StringFlag{Name: "holdout-side", Usage: "evaluate on this `SIDE` (default: the sides whose role is holdout)"},
 			seedFlag(),
@@ -136,6 +138,20 @@ func curveFlags(cc *cli.Context) (curveOptions, error) {
 		return o, err
 	}
 	o.curve = estimate.CurveOptions{Model: model, Repeats: cc.Int("repeats"), Seed: cc.Uint64("seed")}
+	for _, f := range []string{"ridge", "l2"} {
+		v := cc.Float64(f)
+		if !(v >= 0) || math.IsInf(v, 0) {
+			return o, usagef(curveHint, "--%s: %g, must be a finite number ≥ 0", f, v)
+		}
+		if v == 0 {
+			v = -1 // none (zero means the default in CurveOptions)
+		}
+		if f == "ridge" {
+			o.curve.Ridge = v
+		} else {
+			o.curve.L2 = v
+		}
+	}
 	if m := cc.String("metric"); m != "" {
 		if o.curve.Metric, err = checkChoice(cc, "metric", estimate.Metrics...); err != nil {
 			return o, err
@@ -331,6 +347,8 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 	tx.SetDetail("target", o.extra.Target)
 	tx.SetDetail("at", o.extra.At)
 	tx.SetDetail("bootstrap", o.extra.Bootstrap)
+	tx.SetDetail("ridge", co.Ridge)
+	tx.SetDetail("l2", co.L2)
 	if err := tx.AddAuditQuery(ctx, fmt.Sprintf("estimate_curve:%d", tx.RunID), "curve_means", "report",
 		"mean training and holdout error per capacity and size of this run's measured points",
 		fmt.Sprintf(`SELECT capacity, size, avg(train_err) AS train_err, avg(holdout_err) AS holdout_err, count(*) AS repeats FROM ss_est_curve_points WHERE run_id = %d GROUP BY capacity, size ORDER BY capacity, size`, tx.RunID), false); err != nil {

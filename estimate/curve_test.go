@@ -28,15 +28,16 @@ func gaussianData(rng *rand.Rand, n, p int, sigma float64) Data {
 }
 
 // The learning curve of ordinary least squares (ridge with the penalty off, degree 1) on
-// Gaussian data against its expected holdout error. Hastie, Tibshirani & Friedman (The
-// Elements of Statistical Learning, 2nd ed., §2.5 and eq. 2.27–2.28's random-design argument):
-// with x ~ N(0, Σ) and p coefficients, E[holdout MSE] = σ²(1 + p/(n − p − 1)), because
-// E[(XᵀX)⁻¹] = Σ⁻¹/(n − p − 1) (inverse Wishart mean). Our model also fits an intercept; the
-// same argument on centred features (x₀ − x̄ ~ N(0, (1 + 1/n)Σ), centred Gram Wishart with
-// n − 1 degrees of freedom, and the intercept's own error σ²/n) gives
+// Gaussian data against its expected holdout error. With x ~ N(0, Σ), p coefficients and no
+// intercept, E[holdout MSE] = σ²(1 + p/(n − p − 1)) (the random-design form the issue cites
+// from Hastie, Tibshirani & Friedman, The Elements of Statistical Learning; their §2.5,
+// eq. 2.27–2.28, gives the argument and its large-n form σ²(1 + p/n); the exact form uses the
+// inverse-Wishart mean E[(XᵀX)⁻¹] = Σ⁻¹/(n − p − 1) — section numbers from memory). Our model
+// also fits an intercept; the same argument on centred features (x₀ − x̄ ~ N(0, (1 + 1/n)Σ),
+// centred Gram Wishart with n − 1 degrees of freedom, the intercept's own error σ²/n) gives
 // E = σ²(1 + 1/n)(n − 2)/(n − p − 2), which the test uses (derived here, not quoted).
-// Each of 1000 trials draws a fresh training side and a 4000-row holdout; the check allows four
-// Monte-Carlo standard errors.
+// Each of 1000 trials draws a fresh training side and a 4000-row holdout; the check allows
+// four Monte-Carlo standard errors.
 func TestMeasureCurves_OLSMatchesGaussianFormula(t *testing.T) {
 	const (
 		p      = 3

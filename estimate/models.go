@@ -462,7 +462,7 @@ func log1pexp(u float64) float64 {
 
 // IRLS minimises Σ_i [log(1+e^{a_i·β}) − y_i a_i·β] + 0.5·λ·Σ_{j≥1} β_j² (column 0 of the
 // n×m row-major matrix a is the unpenalised intercept) by Newton's method — iteratively
-// reweighted least squares (McCullagh & Nelder, Generalized Linear Models, §4.4) — with step
+// reweighted least squares (McCullagh & Nelder, Generalized Linear Models, §4.4, from memory) — with step
 // halving whenever a step fails to lower the objective. It stops when the largest coefficient
 // change is below 1e-10·(1 + ‖β‖∞), within 200 iterations.
 func IRLS(a, y []float64, n, m int, lambda float64) ([]float64, int, error) {

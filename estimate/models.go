@@ -80,7 +80,7 @@ func (d Data) check(what string) error {
 // CondLimit is the Cholesky condition-number estimate above which a normal-equations solve is
 // redone by QR on the rows: Cholesky's relative error grows like cond·ε (ε ≈ 2.2e-16), so
 // 1e8 keeps about eight significant digits (a numerical-analysis bound; Golub & Van Loan,
-// Matrix Computations, §5.3).
+// Matrix Computations, §5.3, section from memory).
 const CondLimit = 1e8
 
 // DefaultRidge is the ridge penalty per training row on the standardised, expanded

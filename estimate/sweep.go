@@ -29,6 +29,9 @@ import (
 // expanded again where needed.
 const maxExpanded = 16 << 20
 
+// maxSweepMB bounds the memory of the sweep's Gram snapshots (repeats × sizes × terms² floats).
+const maxSweepMB = 1024
+
 // SweepStats reports how a sweep's systems were solved.
 type SweepStats struct {
 	Systems  int // (repeat, size, degree) systems solved
@@ -50,6 +53,10 @@ func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o Cur
 		return nil, stats, err
 	}
 	m := basis.Terms(maxDeg)
+	if mb := float64(o.Repeats*len(o.Sizes)*m*m*8) / (1 << 20); mb > maxSweepMB {
+		return nil, stats, inputf("degree %d over %d features has %d terms: the sweep's %d × %d normal-equation snapshots would take %.0f MB (limit %d); lower the capacity, the repeats or the number of sizes",
+			maxDeg, train.P, m, o.Repeats, len(o.Sizes), mb, maxSweepMB)
+	}
 	sc := newScaler(train)
 	zt := standardised(train, sc)
 	p := train.P

@@ -411,6 +411,9 @@ func curvesLogistic(ctx context.Context, train, holdout Data, o CurveOptions) ([
 	}
 	sc := newScaler(train)
 	mFull := basis.Terms(maxDeg)
+	if mb := float64((train.N+holdout.N)*mFull*8) / (1 << 20); mb > maxSweepMB {
+		return nil, inputf("logistic degree %d over %d features has %d terms: the expanded rows would take %.0f MB (limit %d); lower the capacity", maxDeg, train.P, mFull, mb, maxSweepMB)
+	}
 	trainX := expandAll(standardised(train, sc), train.N, train.P, basis, mFull)
 	holdX := expandAll(standardised(holdout, sc), holdout.N, holdout.P, basis, mFull)
 	lambda := l2Lambda(o.L2)

@@ -53,8 +53,8 @@ func sweepRidgeStats(ctx context.Context, train, holdout Data, degs []int, o Cur
 		return nil, stats, err
 	}
 	m := basis.Terms(maxDeg)
-	if mb := float64(o.Repeats*len(o.Sizes)*m*m*8) / (1 << 20); mb > maxSweepMB {
-		return nil, stats, inputf("degree %d over %d features has %d terms: the sweep's %d × %d normal-equation snapshots would take %.0f MB (limit %d); lower the capacity, the repeats or the number of sizes",
+	if mb := float64((o.Repeats*len(o.Sizes)*m+holdout.N)*m*8) / (1 << 20); mb > maxSweepMB {
+		return nil, stats, inputf("degree %d over %d features has %d terms: the sweep's %d × %d normal-equation snapshots and expanded holdout rows would take %.0f MB (limit %d); lower the capacity, the repeats or the number of sizes",
 			maxDeg, train.P, m, o.Repeats, len(o.Sizes), mb, maxSweepMB)
 	}
 	sc := newScaler(train)

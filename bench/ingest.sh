@@ -32,7 +32,8 @@ SQL
 }
 ours() {
   rm -f "$W/ours.db"
-  "$W/splitsmith" ingest --db "$W/ours.db" --table t "$W/data.csv"
+  # a relative input path, as users give it: ss_source stores it in every row
+  (cd "$W" && ./splitsmith ingest --db ours.db --table t data.csv)
 }
 export -f base ours
 export W

@@ -234,6 +234,8 @@ type curveResult struct {
 	Measured     []curveMeasured       `json:"measured"`
 	Capacities   []curveCapacity       `json:"capacities"`
 	BestAt       []estimate.SizeBest   `json:"best_at_size"`
+	Target       float64               `json:"target,omitempty"`
+	At           float64               `json:"at,omitempty"`
 	BestCapacity *float64              `json:"best_capacity"`
 	BestNStar    *estimate.Interval    `json:"best_nstar"`
 	Verdict      string                `json:"verdict"`
@@ -308,7 +310,7 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 		Columns: ld.Columns, Model: co.Model, Metric: resolved.Metric, TrainSides: ld.TrainSides,
 		HoldoutSides: ld.HoldoutSides, TrainRows: ld.Train.N, HoldoutRows: ld.Holdout.N, Sizes: resolved.Sizes,
 		Repeats: co.Repeats, Seed: co.Seed, Notes: orEmptyStrings(ld.Notes), BestAt: rep.BestAt, Verdict: rep.Verdict,
-		Caution: rep.Caution, RunID: tx.RunID, report: rep, points: pts}
+		Caution: rep.Caution, RunID: tx.RunID, report: rep, points: pts, Target: o.extra.Target, At: o.extra.At}
 	if rep.BestNStar != nil {
 		c := rep.BestCapacity
 		res.BestCapacity, res.BestNStar = &c, rep.BestNStar
@@ -541,7 +543,14 @@ func printCurve(w io.Writer, r *curveResult, format string) error {
 		return err
 	}
 	fmt.Fprintln(w)
-	ft := &table{Header: []string{"capacity", "curve", "backtest err", "asymptote [interval]", "n* [interval]", "error at --at [interval]"}}
+	hdr := []string{"capacity", "curve", "backtest err", "asymptote [interval]"}
+	if r.Target > 0 {
+		hdr = append(hdr, fmt.Sprintf("n* for %g [interval]", r.Target))
+	}
+	if r.At > 0 {
+		hdr = append(hdr, fmt.Sprintf("error at n = %g [interval]", r.At))
+	}
+	ft := &table{Header: hdr}
 	for _, c := range r.Capacities {
 		bt := ""
 		if c.BacktestErr != nil {
@@ -551,7 +560,18 @@ func printCurve(w io.Writer, r *curveResult, format string) error {
 		if fam == "" {
 			fam = "(none)"
 		}
-		ft.add(lab(c.Capacity), fam, bt, ivCell(c.Asymptote), nstarCell(c.NStar), ivCell(c.AtErr))
+		cells := []any{lab(c.Capacity), fam, bt, ivCell(c.Asymptote)}
+		if r.Target > 0 {
+			ns := nstarCell(c.NStar)
+			if c.ReachedAt > 0 {
+				ns = fmt.Sprintf("met at n = %d (measured)", c.ReachedAt)
+			}
+			cells = append(cells, ns)
+		}
+		if r.At > 0 {
+			cells = append(cells, ivCell(c.AtErr))
+		}
+		ft.add(cells...)
 	}
 	if err := ft.write(w, "table"); err != nil {
 		return err

@@ -32,15 +32,19 @@ func newJSONLReader(r io.Reader) *jsonlReader {
 func (j *jsonlReader) rec() *record { return &j.r0 }
 
 func (j *jsonlReader) header() ([]string, int64, error) {
-	ok, err := j.lines.next()
-	if err != nil {
-		return nil, 0, err
+	var lr *record
+	var line []byte
+	for len(line) == 0 { // skip blank lines
+		ok, err := j.lines.next()
+		if err != nil {
+			return nil, 0, err
+		}
+		if !ok {
+			return nil, 0, errEmpty
+		}
+		lr = j.lines.rec()
+		line = bytes.TrimSpace(lr.raw)
 	}
-	if !ok {
-		return nil, 0, errEmpty
-	}
-	lr := j.lines.rec()
-	line := bytes.TrimSpace(lr.raw)
 	if !utf8.Valid(line) {
 		return nil, lr.line, fmt.Errorf("invalid UTF-8 at byte %d", invalidAt(line)+1)
 	}

@@ -528,3 +528,16 @@ func TestLoad_Cancelled(t *testing.T) {
 		t.Errorf("a cancelled load created %s", path)
 	}
 }
+
+func TestLoad_JSONLBlankAndCRLFLines(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "t.db")
+	in := "  \r\n{\"a\": 1}\r\n\t\r\n{\"a\": 2}\r\n"
+	res, err := loadInto(t, path, []Input{{Name: "x.jsonl", Reader: strings.NewReader(in)}}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := query(t, openDB(t, path).DB, `SELECT ss_line, a FROM x ORDER BY ss_row`)
+	if res.Rows != 2 || !reflect.DeepEqual(got, [][]any{{int64(2), int64(1)}, {int64(4), int64(2)}}) {
+		t.Errorf("got %v", got)
+	}
+}

@@ -96,6 +96,13 @@ func benchAudit(b *testing.B, params map[string]float64, checks ...string) {
 // (target < 1.5 s): read, normalise, hash 9 columns, group, store findings and queries.
 func BenchmarkAudit_ExactDuplicate1M(b *testing.B) { benchAudit(b, nil, "exact_duplicate") }
 
+// BenchmarkAudit_ExactDuplicateSQLKeys1M: the same with SQLite building the keys.
+func BenchmarkAudit_ExactDuplicateSQLKeys1M(b *testing.B) {
+	sqlBuiltKeys = true
+	defer func() { sqlBuiltKeys = false }()
+	benchAudit(b, nil, "exact_duplicate")
+}
+
 // BenchmarkAudit_ExactDuplicateDigest1M: the same on the stored content digests
 // (exact_duplicate.normalize=0 with no column excluded; target < 1.5 s).
 func BenchmarkAudit_ExactDuplicateDigest1M(b *testing.B) {

@@ -87,6 +87,7 @@ Examples:
 			}
 			for _, item := range cc.StringSlice("schema") {
 				col, typ, ok := strings.Cut(item, "=")
+				col = strings.TrimSpace(col)
 				if !ok || col == "" {
 					return usagef(ingestHint, "--schema: %q is not COL=TYPE", item)
 				}

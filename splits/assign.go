@@ -41,7 +41,6 @@ type data struct {
 	entU     []float64 // entity hash
 	nullEnts int       // rows that were their own entity for NULL group values
 	t        []float64 // time (Unix seconds, or the numeric value)
-	tRaw     []string  // time as stored, for reports
 	numeric  bool      // time column is numeric
 	tBad     []bool    // time or label end missing or unparseable (with time_invalid drop)
 	badTimes int
@@ -197,7 +196,7 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			uf.addRow(gv, dg)
 		}
 		if timeIdx >= 0 {
-			tv, raw, ok := timeValue(vals[timeIdx], d.numeric)
+			tv, _, ok := timeValue(vals[timeIdx], d.numeric)
 			bad := !ok
 			if !ok {
 				badTime = append(badTime, id)
@@ -211,7 +210,6 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 				d.labelEnd = append(d.labelEnd, lv)
 			}
 			d.t = append(d.t, tv)
-			d.tRaw = append(d.tRaw, raw)
 			d.tBad = append(d.tBad, bad)
 			if bad {
 				d.badTimes++

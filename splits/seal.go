@@ -166,7 +166,14 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			ss.GroupFraction = &gf
 		}
 		if tmin[i] >= 0 {
-			lo, hi := d.tRaw[tmin[i]], d.tRaw[tmax[i]]
+			lo, err := rawTime(ctx, conn, t, spec.Time, d.rowID[tmin[i]])
+			if err != nil {
+				return nil, err
+			}
+			hi, err := rawTime(ctx, conn, t, spec.Time, d.rowID[tmax[i]])
+			if err != nil {
+				return nil, err
+			}
 			ss.TimeMin, ss.TimeMax = &lo, &hi
 		}
 		res.Sides = append(res.Sides, ss)
@@ -184,6 +191,15 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 	}
 	res.AuditQueries = auditQueries(spec, t, res)
 	return res, nil
+}
+
+// rawTime reads a row's time value as stored, for the side's time_min and time_max.
+func rawTime(ctx context.Context, conn *sql.Conn, t *Table, col string, id int64) (string, error) {
+	var v any
+	if err := conn.QueryRowContext(ctx, `SELECT `+quoteIdent(col)+` FROM `+quoteIdent(t.Name)+` WHERE ss_row = ?`, id).Scan(&v); err != nil {
+		return "", fmt.Errorf("split: time of row %d: %w", id, err)
+	}
+	return label(v), nil
 }
 
 // checkViewName refuses a view name that a user table or view already has.

@@ -105,6 +105,7 @@ func TestRun_PlantedLeaks(t *testing.T) {
 		"shared_entity": {
 			{"shared_entity", "segment", Error, "train:[3] holdout:[33]"},
 			{"shared_entity", "segment", Error, "train:[7] holdout:[37]"},
+			{"shared_entity", "segment", Info, ""},
 		},
 		"label_conflict": {{"label_conflict", "across sides", Error, "train:[8] holdout:[38]"}},
 	}

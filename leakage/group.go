@@ -53,13 +53,14 @@ func itemText(repr string) string { return repr[1:] }
 func runSharedEntity(a *audit) error {
 	for _, col := range a.entity {
 		order, groups := a.entityGroups(col)
-		n := 0
+		n, rows := 0, 0
 		for _, k := range order {
 			g := groups[k]
 			if a.distinctSides(g) < 2 {
 				continue
 			}
 			n++
+			rows += len(g)
 			s := a.groupSides(g)
 			counts := map[string]int{}
 			for _, x := range s {
@@ -74,7 +75,11 @@ func runSharedEntity(a *audit) error {
 		a.addQuery(Query{Name: a.queryName(col), Kind: "check",
 			Description: fmt.Sprintf("values of %s with rows on more than one side; no rows = the stored shared_entity findings for %s hold", col, col),
 			SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY entity) FROM k WHERE entity IN (SELECT entity FROM k WHERE entity IS NOT NULL GROUP BY entity HAVING count(DISTINCT side) > 1)`, col)})
-		_ = n
+		if n > 0 {
+			a.add(Finding{Severity: Info, Subject: col, Item: "summary", HasItem: true, Score: float64(n) / float64(len(order)),
+				Message:  fmt.Sprintf("%d of %d %s values (%.1f%%) have rows on more than one side, %d rows in all", n, len(order), col, 100*float64(n)/float64(len(order)), rows),
+				Evidence: map[string]any{"shared": n, "entities": len(order), "rows": rows}})
+		}
 	}
 	return nil
 }

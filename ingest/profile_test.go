@@ -335,3 +335,22 @@ func TestProfile_TimestampBooleanAndInfinity(t *testing.T) {
 		return StoreProfile(ctx, tx.Conn, tx.RunID, res)
 	})
 }
+
+func TestProfile_NullKey(t *testing.T) {
+	withTx(t, func(ctx context.Context, tx *store.Tx) error {
+		makeTable(t, tx.Conn, "k", []string{"a", "b"}, []string{"INTEGER", "TEXT"},
+			[][]any{{int64(1), "x"}, {nil, "y"}, {int64(1), "x"}, {int64(2), nil}})
+		res, err := Profile(ctx, tx.Conn, ProfileOptions{Table: "k", Key: []string{"a", "b"}})
+		if err != nil {
+			return err
+		}
+		k := findingsOf(res, "duplicate_key", "")
+		if len(k) != 2 || k[0].Count != 2 || k[1].Count != 2 || !strings.Contains(k[1].Message, "missing on 2 rows (lines 3, 5)") {
+			t.Errorf("duplicate_key findings %+v", k)
+		}
+		if res.DuplicateKeys == nil || *res.DuplicateKeys != 2 {
+			t.Errorf("duplicate keys %v", res.DuplicateKeys)
+		}
+		return nil
+	})
+}

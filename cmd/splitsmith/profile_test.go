@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"context"
 	"os"
 	"path/filepath"
 	"strings"
@@ -44,5 +45,55 @@ func TestProfile_ExitCodes(t *testing.T) {
 				t.Errorf("exit %d, want %d (stderr %q)", code, tt.want, e)
 			}
 		})
+	}
+}
+
+// TestProfile_AuditQueryHolds: the stored duplicate check returns no rows right after the
+// profile, and a row once the table changes.
+func TestProfile_AuditQueryHolds(t *testing.T) {
+	dir := t.TempDir()
+	csv := filepath.Join(dir, "r.csv")
+	os.WriteFile(csv, []byte("id,x\n1,2.5\n2,3.5\n2,3.5\n"), 0o644)
+	db := filepath.Join(dir, "p.db")
+	for _, args := range [][]string{{"ingest", "--db", db, csv}, {"profile", "--db", db, "--table", "r"}} {
+		var out, errb bytes.Buffer
+		if code := run(append([]string{"splitsmith"}, args...), strings.NewReader(""), &out, &errb); code != 0 {
+			t.Fatalf("%v: %d %s", args, code, errb.String())
+		}
+	}
+	count := func() int {
+		d, err := openRead(context.Background(), db, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer d.Close()
+		var q string
+		if err := d.QueryRow(`SELECT sql FROM ss_audit_queries WHERE subject = 'profile:r' AND name = 'duplicate_rows'`).Scan(&q); err != nil {
+			t.Fatal(err)
+		}
+		rows, err := d.Query(q)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer rows.Close()
+		n := 0
+		for rows.Next() {
+			n++
+		}
+		return n
+	}
+	if n := count(); n != 0 {
+		t.Fatalf("check returned %d rows right after the profile", n)
+	}
+	d, err := openRead(context.Background(), db, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := d.Exec(`DELETE FROM r WHERE ss_row = 3`); err != nil {
+		t.Fatal(err)
+	}
+	d.Close()
+	if n := count(); n != 1 {
+		t.Errorf("check returned %d rows after removing the copy, want 1", n)
 	}
 }

@@ -454,6 +454,47 @@ func looksLeadingZero(s string) bool {
 	return true
 }
 
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseFloatFast parses -?[0-9]*(.[0-9]*)? with at most 15 digits in all, or reports !ok.
+// The digits form an integer below 2^53 and 10^k (k <= 22) is exact, so one correctly
+// rounded IEEE division gives the correctly rounded value, as strconv.ParseFloat does
+// (Clinger's fast path, "How to read floating point numbers accurately", PLDI 1990).
+func parseFloatFast(b []byte) (float64, bool) {
+	i, neg := 0, false
+	if len(b) > 0 && b[0] == '-' {
+		i, neg = 1, true
+	}
+	var m uint64
+	nd, frac, dot := 0, 0, false
+	for ; i < len(b); i++ {
+		c := b[i]
+		if c == '.' {
+			if dot {
+				return 0, false
+			}
+			dot = true
+			continue
+		}
+		if c < '0' || c > '9' || nd == 15 {
+			return 0, false
+		}
+		m = m*10 + uint64(c-'0')
+		nd++
+		if dot {
+			frac++
+		}
+	}
+	if nd == 0 {
+		return 0, false
+	}
+	f := float64(m) / pow10[frac]
+	if neg {
+		f = -f
+	}
+	return f, true
+}
+
 // realTextCanonical reports whether b, a decimal that parses as a float64, is already the text
 // strconv.FormatFloat(x, 'g', -1, 64) gives for it, so the digest can hash b without
 // formatting x: at most 15 significant digits (DBL_DIG, so the shortest round-trip form has

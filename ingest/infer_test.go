@@ -1,7 +1,9 @@
 package ingest
 
 import (
+	"math"
 	"strconv"
+	"strings"
 	"testing"
 )
 
@@ -129,7 +131,7 @@ func TestNorm(t *testing.T) {
 // type (pass 2 never meets a value that pass 1 typed but cannot store), and that the stored
 // form of an inferred number reads back as the same type.
 func FuzzInfer(f *testing.F) {
-	for _, s := range []string{"42", "00123", "1.5", "-0", "0.0001", "123456.5", "2024-02-29", "2024-03-01 08:15", "true", "9223372036854775808", "1e999", ".5", "NaN"} {
+	for _, s := range []string{"42", "00123", "1.5", "-0", "0.0001", "0.1", "123456789012345", "9007199254740993", "1.00000000000001", ".5", "5.", "123456.5", "2024-02-29", "2024-03-01 08:15", "true", "9223372036854775808", "1e999", ".5", "NaN"} {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
@@ -147,6 +149,12 @@ func FuzzInfer(f *testing.F) {
 				t.Fatalf("%q: canonical form %q is %v", s, v, again)
 			}
 		}
+		if f, ok := parseFloatFast([]byte(s)); ok {
+			want, err := strconv.ParseFloat(s, 64)
+			if err != nil || math.Float64bits(f) != math.Float64bits(want) {
+				t.Fatalf("parseFloatFast(%q) = %v, strconv.ParseFloat %v (%v)", s, f, want, err)
+			}
+		}
 		if realTextCanonical([]byte(s)) {
 			x, err := strconv.ParseFloat(s, 64)
 			if err != nil || strconv.FormatFloat(x, 'g', -1, 64) != s {
@@ -157,4 +165,18 @@ func FuzzInfer(f *testing.F) {
 			t.Fatalf("%q: lenient parse of %v rejects it", s, typ)
 		}
 	})
+}
+
+// parseFloatFast agrees bit for bit with strconv.ParseFloat wherever it answers.
+func TestParseFloatFast(t *testing.T) {
+	for _, s := range []string{"0", "-0", "1.5", "0.1", "0.3", "123456.789", "999999999999999", "0.000000000000001", "-12.5", ".5", "5.", "1.2.3", "", "-", "1e5", "1234567890123456"} {
+		f, ok := parseFloatFast([]byte(s))
+		want, err := strconv.ParseFloat(s, 64)
+		if ok && (err != nil || math.Float64bits(f) != math.Float64bits(want)) {
+			t.Errorf("parseFloatFast(%q) = %v, strconv.ParseFloat %v, %v", s, f, want, err)
+		}
+		if !ok && err == nil && len(s) <= 8 && !strings.ContainsAny(s, "e") {
+			t.Errorf("parseFloatFast(%q) declined a short plain decimal", s)
+		}
+	}
 }

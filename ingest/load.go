@@ -660,6 +660,9 @@ func (c *converter) value(t Type, lenient bool, b []byte) (driver.Value, bool) {
 		if !lenient && classifyNumber(b)&mReal == 0 {
 			return nil, false
 		}
+		if v, ok := parseFloatFast(b); ok {
+			return v, true
+		}
 		v, err := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64) // b is not kept
 		if err != nil || v-v != 0 {
 			return nil, false

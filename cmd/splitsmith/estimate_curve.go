@@ -321,7 +321,10 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 		if r := c.Result; r != nil {
 			cc.Family, cc.Params, cc.BacktestErr = r.Best.Family, r.Best.Params, finite(r.Best.BacktestErr)
 			a := r.Asymptote
-			cc.Asymptote, cc.NStar, cc.AtErr, cc.Verdict = &a, r.NStar, r.AtErr, r.Verdict
+			cc.NStar, cc.AtErr, cc.Verdict = r.NStar, r.AtErr, r.Verdict
+			if a.Method != "none" { // log2 has no asymptote
+				cc.Asymptote = &a
+			}
 			if r.NStar != nil {
 				reach := r.Reachable
 				cc.Reachable = &reach
@@ -560,7 +563,11 @@ func printCurve(w io.Writer, r *curveResult, format string) error {
 		if fam == "" {
 			fam = "(none)"
 		}
-		cells := []any{lab(c.Capacity), fam, bt, ivCell(c.Asymptote)}
+		asy := ivCell(c.Asymptote)
+		if c.Asymptote == nil && c.Family != "" {
+			asy = "none"
+		}
+		cells := []any{lab(c.Capacity), fam, bt, asy}
 		if r.Target > 0 {
 			ns := nstarCell(c.NStar)
 			if c.ReachedAt > 0 {

@@ -142,6 +142,15 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			}
 		}
 	}
+	for i, sd := range a.sides {
+		if len(perSide[i]) == 0 {
+			why := ""
+			if spec.Time != "" {
+				why = " (rows with equal times stay together, and gap, purge and span drop rows)"
+			}
+			return nil, fieldErr("sides", "side %q would get no rows of the %d in table %s%s; change the fractions, cutoff or policies", sd, d.n, spec.Table, why)
+		}
+	}
 	res.TableSeal = Seal(all)
 	totalEnts := 0
 	for i := range ents {

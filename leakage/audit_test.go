@@ -3,6 +3,7 @@ package leakage
 import (
 	"errors"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"os"
 	"strings"
@@ -315,6 +316,62 @@ func TestRun_KeysBuiltBySQLiteEqualGo(t *testing.T) {
 	for _, c := range keyChecks {
 		if a, b := fmt.Sprint(summarize(sqlRep, c)), fmt.Sprint(summarize(goRep, c)); a != b || a == "[]" {
 			t.Errorf("%s: SQLite keys %s, Go keys %s", c, a, b)
+		}
+	}
+}
+
+func TestRun_ShiftAndAdequacy(t *testing.T) {
+	// Constructed: x is 1..100 on train and 51..150 on holdout (KS D = 0.5 by construction,
+	// n1·n2 = 10000: exact p); level is a×50, b×50 on train and a×90, b×10 on holdout:
+	// hand-worked chi-square with expected 70/30 per row: 2·400/70 + 2·400/30 = 38.0952,
+	// df 1, Cramér's V = sqrt(38.0952/200) = 0.43644.
+	f := &fixture{table: "t", split: "s", roles: map[string]string{"train": "train", "holdout": "holdout"}, order: []string{"train", "holdout"},
+		cols: []fixCol{{"x", "INTEGER", "INTEGER"}, {"level", "TEXT", "TEXT"}}}
+	for i := 1; i <= 100; i++ {
+		f.rows = append(f.rows, []any{int64(i), map[bool]string{true: "a", false: "b"}[i <= 50]})
+		f.sides = append(f.sides, "train")
+	}
+	for i := 1; i <= 100; i++ {
+		f.rows = append(f.rows, []any{int64(50 + i), map[bool]string{true: "a", false: "b"}[i <= 90]})
+		f.sides = append(f.sides, "holdout")
+	}
+	path := f.create(t)
+	rep, err := runAudit(t, path, Options{Split: "s", Checks: []string{"distribution_shift", "holdout_adequacy"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var stats []shiftStat
+	for _, fd := range rep.Findings {
+		if fd.Subject == "per-column statistics" {
+			stats = fd.Evidence["columns"].([]shiftStat)
+		}
+	}
+	if len(stats) != 2 {
+		t.Fatalf("stats = %+v", stats)
+	}
+	x, lv := stats[0], stats[1]
+	if x.KSD != 0.5 || lv.DF != 1 || math.Abs(lv.X2-38.095238095238095) > 1e-9 || math.Abs(lv.V-0.4364357804719847) > 1e-12 {
+		t.Errorf("x %+v level %+v", x, lv)
+	}
+	// scipy 1.10.1: ks_2samp(range(1,101), range(51,151), method='exact') -> D=0.5,
+	// p=1.0024645454361508e-11; chi2_contingency([[50,50],[90,10]], correction=False) ->
+	// 38.095238095238095, p=6.73743601893275e-10, dof 1.
+	if math.Abs(x.KSP-1.0024645454361508e-11) > 1e-9*1.0024645454361508e-11 || math.Abs(lv.ChiP-6.73743601893275e-10) > 1e-6*6.73743601893275e-10 {
+		t.Errorf("KS p %v, chi-square p %v", x.KSP, lv.ChiP)
+	}
+	// Holdout of 100 rows, p = 0.1: SE 0.03, needs ceil(2·1.959964²·0.09/0.02²) = 1729 rows.
+	var ad Finding
+	for _, fd := range rep.Findings {
+		if fd.Check == "holdout_adequacy" {
+			ad = fd
+		}
+	}
+	if ad.Severity != Warn || math.Abs(ad.Score-0.03) > 1e-15 || ad.Evidence["rows_needed"] != 1729 {
+		t.Errorf("adequacy %+v", ad)
+	}
+	for name, n := range replay(t, path, "s") {
+		if n != 0 {
+			t.Errorf("%s: %d rows", name, n)
 		}
 	}
 }

@@ -66,10 +66,12 @@ func ksNumerator(x, y []float64) int64 {
 	return best
 }
 
-// KSExactP is P(D ≥ h/(n1·n2)) under the null hypothesis for continuous data: one minus
-// the probability that a uniformly random monotone lattice path from (0,0) to (n1,n2) keeps
-// |i·n2 − j·n1| < h at every point. The path probability is carried step by step (each step
-// chooses x with probability (n1−i)/(n1−i+n2−j)), so no binomial coefficient overflows.
+// KSExactP is P(D ≥ h/(n1·n2)) under the null hypothesis for continuous data: the
+// probability that a uniformly random monotone lattice path from (0,0) to (n1,n2) reaches a
+// point with |i·n2 − j·n1| ≥ h. The path probability is carried step by step (each step
+// chooses x with probability (n1−i)/(n1−i+n2−j)), so no binomial coefficient overflows, and
+// the probability of first reaching such a point is summed directly rather than taken as one
+// minus the staying-inside probability, so small p-values keep their relative precision.
 func KSExactP(n1, n2 int, h int64) float64 {
 	if h <= 0 {
 		return 1
@@ -82,33 +84,35 @@ func KSExactP(n1, n2 int, h int64) float64 {
 		}
 		return d < h
 	}
+	var out float64               // probability of leaving the band
 	prev := make([]float64, n2+1) // prev[j]: probability of reaching (i-1, j) inside
 	cur := make([]float64, n2+1)
 	prev[0] = 1
 	for j := int64(1); j <= n; j++ {
+		p := prev[j-1] * float64(n-(j-1)) / float64(m+n-(j-1))
 		if inside(0, j) {
-			prev[j] = prev[j-1] * float64(n-(j-1)) / float64(m+n-(j-1))
+			prev[j] = p
+		} else {
+			out += p
 		}
 	}
 	for i := int64(1); i <= m; i++ {
 		for j := int64(0); j <= n; j++ {
-			cur[j] = 0
-			if !inside(i, j) {
-				continue
-			}
-			// from (i-1, j) by an x step
-			rem := (m - (i - 1)) + (n - j)
-			p := prev[j] * float64(m-(i-1)) / float64(rem)
+			// from (i-1, j) by an x step, and from (i, j-1) by a y step
+			p := prev[j] * float64(m-(i-1)) / float64((m-(i-1))+(n-j))
 			if j > 0 {
-				rem2 := (m - i) + (n - (j - 1))
-				p += cur[j-1] * float64(n-(j-1)) / float64(rem2)
+				p += cur[j-1] * float64(n-(j-1)) / float64((m-i)+(n-(j-1)))
 			}
-			cur[j] = p
+			if inside(i, j) {
+				cur[j] = p
+			} else {
+				cur[j] = 0
+				out += p
+			}
 		}
 		prev, cur = cur, prev
 	}
-	p := 1 - prev[n2]
-	return math.Min(1, math.Max(0, p))
+	return math.Min(1, math.Max(0, out))
 }
 
 // KSAsymptoticP is the asymptotic two-sided p-value: the Kolmogorov distribution's

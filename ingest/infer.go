@@ -495,6 +495,21 @@ func parseFloatFast(b []byte) (float64, bool) {
 	return f, true
 }
 
+// trimFraction drops trailing zeros of a decimal's fraction, and the point when nothing is
+// left after it ("200.000" → "200", "1.50" → "1.5"); text without a point is returned as is.
+func trimFraction(b []byte) []byte {
+	if bytes.IndexByte(b, '.') < 0 || bytes.ContainsAny(b, "eE") {
+		return b
+	}
+	for len(b) > 0 && b[len(b)-1] == '0' {
+		b = b[:len(b)-1]
+	}
+	if len(b) > 0 && b[len(b)-1] == '.' {
+		b = b[:len(b)-1]
+	}
+	return b
+}
+
 // realTextCanonical reports whether b, a decimal that parses as a float64, is already the text
 // strconv.FormatFloat(x, 'g', -1, 64) gives for it, so the digest can hash b without
 // formatting x: at most 15 significant digits (DBL_DIG, so the shortest round-trip form has

@@ -317,8 +317,8 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 					d.Int(x)
 				}
 			case float64:
-				if realTextCanonical(f) {
-					d.realText(f)
+				if t := trimFraction(f); realTextCanonical(t) {
+					d.realText(t)
 				} else {
 					d.Real(x)
 				}

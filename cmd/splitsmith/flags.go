@@ -67,7 +67,20 @@ func openRead(ctx context.Context, path string, readOnly bool) (*store.DB, error
 
 // update runs fn as one writing command recorded in ss_runs.
 func update(ctx context.Context, cc *cli.Context, path string, create bool, fn func(context.Context, *store.Tx) error) error {
-	return store.Update(ctx, path, store.Options{SQL: sqlSets()}, create, store.Run{Command: cc.Command.FullName(), Args: os.Args[1:]}, fn)
+	return store.Update(ctx, path, store.Options{SQL: sqlSets()}, create, store.Run{Command: cc.Command.FullName(), Args: runArgs(cc)}, fn)
+}
+
+// runArgs is the command line after the program name as this app parsed it: the root
+// context's arguments, so a command the demo runs in-process records its own arguments
+// rather than the demo's (os.Args).
+func runArgs(cc *cli.Context) []string {
+	l := cc.Lineage()
+	for i := len(l) - 1; i >= 0; i-- { // the outermost context holding arguments is the app's
+		if l[i] != nil && l[i].Args().Present() {
+			return l[i].Args().Slice()
+		}
+	}
+	return os.Args[1:]
 }
 
 func toolVersion() string { return store.ToolVersion() }

@@ -153,7 +153,7 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 	}
 	rows.Close()
 	// Content digests of current values.
-	changed, err := changedRows(ctx, conn, t)
+	changed, cur, err := changedRows(ctx, conn, t)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
@@ -179,24 +179,26 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		sides = append(sides, s)
 	}
 	srows.Close()
+	// Each stored row's current ss_digest (both lists are in row order).
+	perSide := map[string][]int64{}
+	count := map[string]int{}
+	for _, x := range sts {
+		count[x.side]++
+	}
+	j := 0
+	for k, id := range ids {
+		for j < len(cur) && cur[j].id < id {
+			j++
+		}
+		if j < len(cur) && cur[j].id == id {
+			perSide[sts[k].side] = append(perSide[sts[k].side], cur[j].digest)
+		}
+	}
 	for _, s := range sides {
-		var ds []int64
-		r, err := conn.QueryContext(ctx, `SELECT t.ss_digest FROM ss_split_rows AS r JOIN `+quoteIdent(table)+` AS t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side = ?`, name, s.side)
-		if err != nil {
-			return nil, fmt.Errorf("verify %s: %w", name, err)
-		}
-		for r.Next() {
-			var x int64
-			r.Scan(&x)
-			ds = append(ds, x)
-		}
-		r.Close()
-		var n int
-		conn.QueryRowContext(ctx, `SELECT count(*) FROM ss_split_rows WHERE split_name = ? AND side = ?`, name, s.side).Scan(&n)
-		if n != s.rows {
+		if n := count[s.side]; n != s.rows {
 			rep.Changes = append(rep.Changes, Change{Kind: "count", Side: s.side, Now: fmt.Sprint(n), Detail: fmt.Sprintf("side %s was sealed with %d rows; ss_split_rows now has %d", s.side, s.rows, n)})
 		}
-		if got := Seal(ds); got != s.digest {
+		if got := Seal(perSide[s.side]); got != s.digest {
 			rep.Changes = append(rep.Changes, Change{Kind: "seal", Side: s.side, Now: got, Detail: fmt.Sprintf("side %s digest %s… no longer matches the sealed %s…", s.side, got[:12], s.digest[:12])})
 		}
 	}
@@ -299,14 +301,14 @@ func appendStable(s *Spec) bool {
 
 // changedRows lists rows whose stored ss_digest differs from the digest of their current
 // values (ingest's content digest).
-func changedRows(ctx context.Context, conn *sql.Conn, t *Table) ([]Change, error) {
+func changedRows(ctx context.Context, conn *sql.Conn, t *Table) ([]Change, []rowDigest, error) {
 	cols := []string{"ss_row", "ss_digest"}
 	for _, c := range t.Columns {
 		cols = append(cols, quoteIdent(c.Name))
 	}
 	rows, err := conn.QueryContext(ctx, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` ORDER BY ss_row`)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	defer rows.Close()
 	vals := make([]any, len(cols))
@@ -314,26 +316,31 @@ func changedRows(ctx context.Context, conn *sql.Conn, t *Table) ([]Change, error
 	for i := range vals {
 		ptrs[i] = &vals[i]
 	}
+	var id int64 // ss_row is an INTEGER PRIMARY KEY; ss_digest may have been tampered to anything
+	ptrs[0] = &id
 	dg := ingest.NewDigester()
 	var out []Change
+	var all []rowDigest
 	for rows.Next() {
 		if err := rows.Scan(ptrs...); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		dg.Reset()
 		for _, v := range vals[2:] {
 			if err := dg.Value(v); err != nil {
-				return nil, err
+				return nil, nil, err
 			}
 		}
 		stored, _ := vals[1].(int64)
+		all = append(all, rowDigest{id, stored})
 		if got := dg.Sum(); got != stored {
-			id, _ := vals[0].(int64)
 			out = append(out, Change{Kind: "changed", RowID: id, Now: fmt.Sprint(got), Detail: fmt.Sprintf("values no longer match the row's content digest (ss_digest %d, values digest to %d)", stored, got)})
 		}
 	}
-	return out, rows.Err()
+	return out, all, rows.Err()
 }
+
+type rowDigest struct{ id, digest int64 }
 
 // auditQueries are the SQL an auditor replays to check the split by hand (subject
 // "split:NAME"). Each "check" returns no rows while the split holds.

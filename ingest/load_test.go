@@ -541,3 +541,26 @@ func TestLoad_JSONLBlankAndCRLFLines(t *testing.T) {
 		t.Errorf("got %v", got)
 	}
 }
+
+// REAL values whose digests take the input-text shortcut (and some that cannot) recompute
+// identically in SQL from the stored values.
+func TestLoad_RealDigestShortcut(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "t.db")
+	in := "x,n\n200.000,1\n1.50,2\n-0.000,3\n0.0001,4\n1234567.5,5\n1e-7,6\n0.1,7\n123456.000,8\n0.30000000000000004,9\n-12,10\n"
+	res, err := loadInto(t, path, []Input{csvIn("r.csv", in)}, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Columns[0].Type != TypeReal {
+		t.Fatalf("x is %v", res.Columns[0].Type)
+	}
+	db := openDB(t, path)
+	if bad := query(t, db.DB, res.DigestCheckSQL); len(bad) != 0 {
+		t.Errorf("rows whose digest does not recompute: %v", bad)
+	}
+	for _, r := range query(t, db.DB, `SELECT ss_digest, x, n FROM r`) {
+		if want, _ := Digest(r[1], r[2]); r[0] != want {
+			t.Errorf("x=%v: ss_digest %v, Go %d", r[1], r[0], want)
+		}
+	}
+}

@@ -548,7 +548,7 @@ func realTextCanonical(b []byte) bool {
 		sig, exp = nInt+nFrac, nInt-1
 	} else {
 		if nFrac == 0 {
-			return true // "0" or "-0"
+			return i == 1 // "0"; not "-0", which is stored as 0 (SQLite keeps no negative zero)
 		}
 		z := 0
 		for z < nFrac && b[s+2+z] == '0' {

@@ -660,12 +660,16 @@ func (c *converter) value(t Type, lenient bool, b []byte) (driver.Value, bool) {
 		if !lenient && classifyNumber(b)&mReal == 0 {
 			return nil, false
 		}
-		if v, ok := parseFloatFast(b); ok {
-			return v, true
+		v, ok := parseFloatFast(b)
+		if !ok {
+			var err error
+			v, err = strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64) // b is not kept
+			if err != nil || v-v != 0 {
+				return nil, false
+			}
 		}
-		v, err := strconv.ParseFloat(unsafe.String(unsafe.SliceData(b), len(b)), 64) // b is not kept
-		if err != nil || v-v != 0 {
-			return nil, false
+		if v == 0 {
+			v = 0 // -0 → 0: SQLite stores no negative zero, and the digest must match what it keeps
 		}
 		return v, true
 	case TypeBoolean:

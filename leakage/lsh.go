@@ -98,12 +98,13 @@ func NearDuplicates(texts []string, side []int, opts NearDupOptions) (NearDupRes
 		var set []uint32
 		var sig []uint32
 		var bk []uint32
+		var sc shingleScratch
 		for i := lo; i < hi; i++ {
 			if side[i] < 0 {
 				empty[i] = true
 				continue
 			}
-			set = o.Shingling.ShingleSet(texts[i], set)
+			set = o.Shingling.shingleSet(texts[i], set, &sc)
 			if len(set) == 0 {
 				empty[i] = true
 				continue
@@ -216,14 +217,15 @@ func NearDuplicates(texts []string, side []int, opts NearDupOptions) (NearDupRes
 	conf := make([]float64, len(cand))
 	parallel(len(cand), o.Workers, func(lo, hi int) {
 		var sa, sb []uint32
+		var sc shingleScratch
 		for k := lo; k < hi; k++ {
 			g, h := int32(cand[k]>>32), int32(uint32(cand[k]))
 			conf[k] = -1
 			if !crosses(g, h) {
 				continue
 			}
-			sa = o.Shingling.ShingleSet(texts[g], sa)
-			sb = o.Shingling.ShingleSet(texts[h], sb)
+			sa = o.Shingling.shingleSet(texts[g], sa, &sc)
+			sb = o.Shingling.shingleSet(texts[h], sb, &sc)
 			conf[k] = Jaccard(sa, sb)
 		}
 	})

@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strings"
 	"unicode"
+	"unicode/utf8"
 )
 
 // NormalizeShingleText prepares text for shingling: lower case (Unicode), every rune that
@@ -67,44 +68,86 @@ func fnv(b string) uint32 {
 // ShingleSet returns the sorted, distinct 32-bit hashes (FNV-1a 64, folded) of the text's
 // shingles after NormalizeShingleText. An empty text has no shingles.
 func (s Shingling) ShingleSet(text string, dst []uint32) []uint32 {
+	var sc shingleScratch
+	return s.shingleSet(text, dst, &sc)
+}
+
+// shingleScratch holds buffers reused across texts by one goroutine.
+type shingleScratch struct {
+	norm []byte
+	offs []int
+}
+
+func (s Shingling) shingleSet(text string, dst []uint32, sc *shingleScratch) []uint32 {
 	dst = dst[:0]
-	t := NormalizeShingleText(text)
-	if t == "" {
+	sc.norm = appendNormalized(sc.norm[:0], text)
+	t := sc.norm
+	if len(t) == 0 {
 		return dst
 	}
 	k := s.K
 	if k < 1 {
 		k = 1
 	}
-	// starts holds the byte offset of every unit (rune or word) plus the end.
-	var starts [64]int
-	offs := starts[:0]
+	// offs holds the byte offset of every unit (rune or word) plus the end.
+	offs := sc.offs[:0]
 	if s.Words {
-		pos := 0
-		for _, w := range strings.Split(t, " ") {
-			offs = append(offs, pos)
-			pos += len(w) + 1
+		offs = append(offs, 0)
+		for i, c := range t {
+			if c == ' ' {
+				offs = append(offs, i+1)
+			}
 		}
 		offs = append(offs, len(t)+1) // a window ends before the separating space
 	} else {
-		for i := range t {
+		for i := 0; i < len(t); {
 			offs = append(offs, i)
+			_, size := utf8.DecodeRune(t[i:])
+			i += size
 		}
 		offs = append(offs, len(t))
 	}
+	sc.offs = offs
 	units := len(offs) - 1
 	if units <= k {
-		return append(dst, fnv(t))
+		return append(dst, fnvBytes(t))
 	}
 	for i := 0; i+k <= units; i++ {
 		end := offs[i+k]
 		if s.Words {
 			end-- // without the trailing space
 		}
-		dst = append(dst, fnv(t[offs[i]:end]))
+		dst = append(dst, fnvBytes(t[offs[i]:end]))
 	}
 	slices.Sort(dst)
 	return slices.Compact(dst)
+}
+
+func fnvBytes(b []byte) uint32 {
+	h := uint64(fnvOffset)
+	for _, c := range b {
+		h ^= uint64(c)
+		h *= fnvPrime
+	}
+	return uint32(h ^ h>>32)
+}
+
+// appendNormalized appends NormalizeShingleText(s) to dst.
+func appendNormalized(dst []byte, s string) []byte {
+	space := true
+	for _, r := range s {
+		if unicode.IsLetter(r) || unicode.IsDigit(r) {
+			dst = utf8.AppendRune(dst, unicode.ToLower(r))
+			space = false
+		} else if !space {
+			dst = append(dst, ' ')
+			space = true
+		}
+	}
+	if n := len(dst); n > 0 && dst[n-1] == ' ' {
+		dst = dst[:n-1]
+	}
+	return dst
 }
 
 // Jaccard is |A∩B| / |A∪B| for sorted distinct sets; two empty sets give NaN.

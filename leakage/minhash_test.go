@@ -53,6 +53,11 @@ func TestShingleSet_MMDS(t *testing.T) {
 	if !slices.Equal(w, want) {
 		t.Errorf("word shingles = %v", w)
 	}
+	for _, x := range []string{"", "  ", "Ab, cD!", "ÄÖ  ü-ß 12", "...x..."} {
+		if a, b := string(appendNormalized(nil, x)), NormalizeShingleText(x); a != b {
+			t.Errorf("%q: %q vs %q", x, a, b)
+		}
+	}
 	// Shorter than k: the whole text is one shingle.
 	if s := (Shingling{K: 5}).ShingleSet("ab", nil); len(s) != 1 || s[0] != fnv("ab") {
 		t.Errorf("short = %v", s)
@@ -222,6 +227,7 @@ func benchNearDup(b *testing.B, n int) {
 			b.Fatal(err)
 		}
 		b.ReportMetric(float64(len(res.Pairs)), "pairs")
+		b.ReportMetric(float64(len(res.Copies)), "copy-groups")
 	}
 }
 

@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"reflect"
 	"strings"
 	"syscall"
 
@@ -42,6 +43,12 @@ func newApp(s stdio) *cli.App {
 		HideHelpCommand: true,
 		Description:     exitStatusHelp,
 		OnUsageError:    onUsageError,
+		Action: func(cc *cli.Context) error {
+			if cc.NArg() > 0 {
+				return usagef("splitsmith --help", "unknown command %q", cc.Args().First())
+			}
+			return cli.ShowAppHelp(cc)
+		},
 		Commands: []*cli.Command{
 			newDemoCommand(s),
 			newIngestCommand(s),
@@ -71,11 +78,17 @@ func prepare(c *cli.Command) {
 		}
 		c.Description += exitStatusHelp
 	}
+	required := takeRequired(c.Flags)
 	if c.Action != nil {
 		act := c.Action
 		c.Action = func(cc *cli.Context) error {
 			if err := flagsAfterArgs(cc); err != nil {
 				return err
+			}
+			for _, name := range required {
+				if !cc.IsSet(name) {
+					return usagef("splitsmith "+cc.Command.FullName()+" --help", "--%s is required", name)
+				}
 			}
 			return act(cc)
 		}
@@ -83,6 +96,28 @@ func prepare(c *cli.Command) {
 	for _, sc := range c.Subcommands {
 		prepare(sc)
 	}
+}
+
+// takeRequired clears the Required mark of each flag and returns their names: urfave/cli v2
+// answers a missing required flag by printing the whole help to stdout and exiting 1, where
+// splitsmith wants one line on stderr and exit 2 (checked in prepare's Action wrapper).
+func takeRequired(flags []cli.Flag) []string {
+	var names []string
+	for _, f := range flags {
+		rf, ok := f.(cli.RequiredFlag)
+		if !ok || !rf.IsRequired() {
+			continue
+		}
+		v := reflect.ValueOf(f)
+		if v.Kind() != reflect.Pointer || v.Elem().Kind() != reflect.Struct {
+			continue
+		}
+		if fld := v.Elem().FieldByName("Required"); fld.IsValid() && fld.CanSet() && fld.Kind() == reflect.Bool {
+			fld.SetBool(false)
+			names = append(names, f.Names()[0])
+		}
+	}
+	return names
 }
 
 func onUsageError(cc *cli.Context, err error, _ bool) error {

@@ -13,7 +13,7 @@ import (
 
 // Shared flags. Each command lists the ones it takes.
 func dbFlag() *cli.StringFlag {
-	return &cli.StringFlag{Name: "db", Usage: "splitsmith database `FILE`", EnvVars: []string{"SPLITSMITH_DB"}, Required: true}
+	return &cli.StringFlag{Name: "db", Usage: "splitsmith database `FILE` (required; or $SPLITSMITH_DB)", EnvVars: []string{"SPLITSMITH_DB"}, Required: true}
 }
 
 func formatFlag(def string, allowed ...string) *cli.StringFlag {

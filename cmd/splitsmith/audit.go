@@ -52,7 +52,7 @@ Examples:
 			&cli.StringFlag{Name: "label", Usage: "label `COL`"},
 			&cli.StringSliceFlag{Name: "text", Usage: "free-text `COL,...` for near-duplicate detection"},
 			&cli.StringFlag{Name: "time", Usage: "time `COL` (default: the split's time column)"},
-			&cli.StringSliceFlag{Name: "entity", Usage: "entity `COL,...` (default: the split's group columns)"},
+			&cli.StringSliceFlag{Name: "entity", Usage: "entity `COL,...` (default: the split's group columns; '' for none)"},
 			&cli.StringSliceFlag{Name: "ignore", Usage: "`COL,...` left out of the feature columns"},
 			&cli.StringSliceFlag{Name: "param", Usage: "threshold `CHECK.NAME=VALUE` (repeatable)"},
 			failOnFlag(),
@@ -88,7 +88,12 @@ Examples:
 			}
 			var entity []string
 			if cc.IsSet("entity") {
-				entity = cc.StringSlice("entity")
+				entity = []string{} // --entity '' turns entity checks off
+				for _, e := range cc.StringSlice("entity") {
+					if strings.TrimSpace(e) != "" {
+						entity = append(entity, strings.TrimSpace(e))
+					}
+				}
 			}
 			o.opts = leakage.Options{Split: cc.String("split"), Checks: checks, Label: cc.String("label"), Text: cc.StringSlice("text"),
 				Time: cc.String("time"), Entity: entity, Ignore: cc.StringSlice("ignore"), Params: params}

@@ -447,3 +447,34 @@ func TestSplit_AdoptedFoldColumn(t *testing.T) {
 		t.Errorf("NULL fold: %v", err)
 	}
 }
+
+// Rolling folds with label ends (purging, López de Prado 2018, ch. 7): a row trains in fold k
+// only if its label end is before fold k's first test time. Numeric time column, numeric gap.
+func TestSplit_RollingPurgeNumericTime(t *testing.T) {
+	path := newDB(t)
+	var rows [][]any
+	for i := 0; i < 20; i++ {
+		rows = append(rows, []any{int64(i), float64(i) + float64(i%3)*1.5}) // label end t + 0, 1.5 or 3
+	}
+	makeTable(t, path, "n", []col{{"t", "INTEGER"}, {"end", "REAL"}}, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "rp", Table: "n", Time: "t", LabelEnd: "end", Folds: 4, TestSize: 3, Gap: "1"})
+	got := readRows(t, path, "rp")
+	// Test blocks start at positions 20 - (4-k+1)·3: 8, 11, 14, 17.
+	starts := []int64{8, 11, 14, 17}
+	for id, a := range got {
+		ti := rows[id-1][0].(int64)
+		end := rows[id-1][1].(float64)
+		for k := 1; k <= 4; k++ {
+			s := starts[k-1]
+			trains := a.tf != 0 && a.tf <= int64(k)
+			want := float64(ti) < float64(s)-1 && end < float64(s)
+			if trains != want {
+				t.Errorf("row t=%d end=%v fold %d: trains=%v, want %v", ti, end, k, trains, want)
+			}
+		}
+	}
+	if res.Folds[0].TrainRows+res.Folds[0].Excluded != 8 {
+		t.Errorf("fold 1: %+v", res.Folds[0])
+	}
+	checkAuditQueries(t, path, "rp")
+}

@@ -156,12 +156,20 @@ func readOnlyAuthorizer(action sqlite.AuthorizerActionCode, arg1, arg2, dbName, 
 	case sqlite.AuthSelect, sqlite.AuthRead, sqlite.AuthFunction, sqlite.AuthRecursive, sqlite.AuthTransaction, sqlite.AuthSavepoint:
 		return sqlite.AuthorizerOK
 	case sqlite.AuthPragma:
-		if arg2 == "" && !writingPragma[strings.ToLower(arg1)] {
+		name := strings.ToLower(arg1)
+		if readingPragma[name] || (arg2 == "" && !writingPragma[name]) {
 			return sqlite.AuthorizerOK
 		}
 	}
 	return sqlite.AuthorizerDeny
 }
+
+// readingPragma are pragmas whose argument names what to read (pragma_table_info('t')), never a
+// value to set.
+var readingPragma = map[string]bool{"table_info": true, "table_xinfo": true, "table_list": true, "index_list": true,
+	"index_info": true, "index_xinfo": true, "foreign_key_list": true, "foreign_key_check": true, "integrity_check": true,
+	"quick_check": true, "database_list": true, "function_list": true, "collation_list": true, "module_list": true,
+	"pragma_list": true, "compile_options": true}
 
 var writingPragma = map[string]bool{"optimize": true, "incremental_vacuum": true, "wal_checkpoint": true, "shrink_memory": true}
 

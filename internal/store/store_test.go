@@ -95,6 +95,11 @@ func TestOpen_ReadOnlyDeniesWrites(t *testing.T) {
 		}
 	}
 	var n int
+	for _, q := range []string{`SELECT count(*) FROM pragma_table_info('t')`, `SELECT count(*) FROM pragma_integrity_check`, `PRAGMA user_version`} {
+		if err := db.QueryRow(q).Scan(&n); err != nil {
+			t.Errorf("%s: a reading pragma was refused: %v", q, err)
+		}
+	}
 	if err := db.QueryRow(`SELECT count(*) FROM t`).Scan(&n); err != nil || n != 1 {
 		t.Errorf("read: n=%d err=%v", n, err)
 	}

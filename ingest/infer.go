@@ -382,13 +382,16 @@ type colStat struct {
 	mixedZoneValue  string
 }
 
-func (c *colStat) observe(b []byte, src string, line int64) {
+// observe adds one non-missing value. It reports whether the column's type decision may
+// have changed (candidates dropped, first value, zones newly mixed).
+func (c *colStat) observe(b []byte, src string, line int64) bool {
 	c.nonMissing++
 	if c.schema || c.mask == 0 {
-		return
+		return false
 	}
 	m, z := classify(b)
 	nm := c.mask & m
+	changed := nm != c.mask || c.nonMissing == 1
 	if nm&mTimestamp != 0 {
 		if z {
 			c.zoned = true
@@ -397,12 +400,29 @@ func (c *colStat) observe(b []byte, src string, line int64) {
 		}
 		if c.zoned && c.naive && c.mixedZoneLine == 0 {
 			c.mixedZoneLine, c.mixedZoneSource, c.mixedZoneValue = line, src, clip(string(b))
+			changed = true
 		}
 	}
 	if nm == 0 {
 		c.killValue, c.killLine, c.killSource, c.killMask = clip(string(b)), line, src, c.mask
 	}
 	c.mask = nm
+	return changed
+}
+
+// typ is decide's type without the reason.
+func (c *colStat) typ() Type {
+	switch {
+	case c.schema:
+		return c.schemaType
+	case c.nonMissing == 0:
+		return TypeText
+	}
+	t := pick(c.mask)
+	if t == TypeTimestamp && c.zoned && c.naive {
+		return TypeText
+	}
+	return t
 }
 
 func clip(s string) string {

@@ -6,12 +6,9 @@ import (
 	"database/sql/driver"
 	"errors"
 	"fmt"
-	"os"
 	"strings"
 	"unsafe"
 )
-
-var osStat = os.Stat
 
 // maxParams stays under SQLite's default limit of bound parameters per statement (32766).
 const maxParams = 32000
@@ -231,11 +228,11 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 			}
 		}
 		b.src, src = si, si
-		rr, done, err := s.open(false, l.progress)
+		rr, done, err := s.open(l.inferring, l.progress)
 		if err != nil {
 			return err
 		}
-		err = l.produceSource(ctx, s, rr, conv, d, &rowID, &b, per, width, send, get)
+		err = l.produceSource(ctx, si, s, rr, conv, d, &rowID, &b, per, width, send, get)
 		done()
 		if err != nil {
 			return err
@@ -247,21 +244,30 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 	return nil
 }
 
-func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, conv *converter, d *Digester, rowID *int64, bp **batch, per, width int, send, get func() error) error {
-	if _, _, err := rr.header(); err != nil {
-		return fmt.Errorf("read %s: %w", s.name, err)
+func (l *loader) produceSource(ctx context.Context, si int, s *source, rr recordReader, conv *converter, d *Digester, rowID *int64, bp **batch, per, width int, send, get func() error) error {
+	hline, err := l.readHeader(si, s, rr)
+	if err != nil {
+		return err
 	}
+	records := 0
 	for {
 		ok, err := rr.next()
 		if err != nil {
 			return fmt.Errorf("read %s: %w", s.name, err)
 		}
 		if !ok {
+			if records == 0 {
+				return &Problem{Source: s.name, Line: hline, Reason: "header only: no data rows"}
+			}
 			return nil
 		}
+		records++
 		b := *bp
 		r := rr.rec()
 		if p := l.rowProblem(s, r, conv); p != nil {
+			if l.inferring && l.opts.OnError != "fail" {
+				l.keep(p) // a one-pass load meets its problems here, not in pass 1
+			}
 			if l.opts.OnError == "quarantine" {
 				s.rejected++
 				b.rejects = append(b.rejects, *p)
@@ -279,6 +285,15 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 				return p
 			}
 			continue
+		}
+		if l.inferring {
+			for i, f := range r.fields {
+				if l.isMissing(f) {
+					l.stats[i].missing++
+				} else if l.stats[i].observe(f, s.name, r.line) && l.stats[i].typ() != l.types[i] {
+					return errRestart
+				}
+			}
 		}
 		args := b.args[b.n*width : (b.n+1)*width]
 		args[0].Value = r.line
@@ -306,6 +321,9 @@ func (l *loader) produceSource(ctx context.Context, s *source, rr recordReader, 
 				v, ok = conv.value(l.types[i], l.lenient[i], f)
 			}
 			if !ok {
+				if l.inferring {
+					return errRestart
+				}
 				return &Problem{Source: s.name, Line: r.line, Column: l.cols[i], Value: string(f),
 					Reason: fmt.Sprintf("value %q no longer parses as %s (did the input change while loading?)", clip(string(f)), l.types[i])}
 			}

@@ -66,6 +66,9 @@ type Result struct {
 	Sources  []SourceResult
 	Columns  []Column
 	Problems []Problem // the first MaxProblems bad rows (skip and quarantine)
+	// Passes is 1 when the types fixed by the first rows held to the end (one read of each
+	// input), 2 when a later value changed one and the load ran again in two passes.
+	Passes int
 	// DigestCheckSQL lists rows whose values no longer match their ss_digest (empty = intact).
 	DigestCheckSQL string
 }
@@ -111,6 +114,10 @@ type loader struct {
 	table    string
 	firstRow int64
 	existing []Column
+	// inferring: pass 2 of a one-pass load also infers, and stops with errRestart when a
+	// value changes a column's type decision.
+	inferring bool
+	replaced  bool // the old table of a --replace is gone
 }
 
 // Load reads the inputs and loads them into one table on conn, inside the caller's
@@ -134,23 +141,32 @@ func Load(ctx context.Context, conn *sql.Conn, inputs []Input, opts Options) (*R
 			return nil, err
 		}
 		if s.spool {
-			l.total += 2 * s.size
-		} else if !s.modTime.IsZero() {
-			if st, err := statSize(s.path); err == nil {
-				l.total += 2 * st
-			}
+			l.total += s.size
+		} else {
+			l.total += s.statSize
 		}
 	}
-	if err := l.pass1(ctx); err != nil {
-		return nil, err
+	res, err := l.optimistic(ctx, conn)
+	if err == errRestart {
+		if err := l.restart(ctx, conn); err != nil {
+			return nil, err
+		}
+		if err := l.pass1(ctx); err != nil {
+			return nil, err
+		}
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
+		if err := l.create(ctx, conn); err != nil {
+			return nil, err
+		}
+		res, err = l.pass2(ctx, conn)
+		if res != nil {
+			res.Passes = 2
+		}
+	} else if res != nil {
+		res.Passes = 1
 	}
-	if err := ctx.Err(); err != nil {
-		return nil, err
-	}
-	if err := l.create(ctx, conn); err != nil {
-		return nil, err
-	}
-	res, err := l.pass2(ctx, conn)
 	if err != nil {
 		return nil, err
 	}
@@ -158,6 +174,76 @@ func Load(ctx context.Context, conn *sql.Conn, inputs []Input, opts Options) (*R
 		return nil, err
 	}
 	return res, nil
+}
+
+// prefixRecords is how many records of the first input fix the provisional types of the
+// one-pass load (tests lower it to force restarts).
+var prefixRecords = 10000
+
+// errRestart says a value contradicted a provisional type: the one-pass load is undone and
+// the load runs in two passes.
+var errRestart = errors.New("ingest: provisional type contradicted")
+
+// optimistic loads in one pass. The first prefixRecords records of the first input fix
+// provisional types; the table is created with them and every input is then read once,
+// inferring as it inserts. A value that changes any column's type decision returns
+// errRestart, and Load then drops what was inserted and runs pass 1 and pass 2. Files whose
+// types are settled by their first rows (the usual case) are thus read once and a half-chunk.
+func (l *loader) optimistic(ctx context.Context, conn *sql.Conn) (*Result, error) {
+	conv := &converter{}
+	s := l.srcs[0]
+	rr, done, err := s.open(false, nil)
+	if err != nil {
+		return nil, err
+	}
+	err = l.scan(ctx, 0, s, rr, conv, prefixRecords)
+	done()
+	if err != nil {
+		return nil, err
+	}
+	for i := range l.cols {
+		l.types = append(l.types, l.stats[i].typ())
+	}
+	l.problems = nil
+	if err := l.setupTypes(); err != nil { // fresh statistics: pass 2 observes every row
+		return nil, err
+	}
+	if err := l.create(ctx, conn); err != nil {
+		return nil, err
+	}
+	l.inferring = true
+	res, err := l.pass2(ctx, conn)
+	l.inferring = false
+	if err != nil {
+		return nil, err
+	}
+	for i := range l.cols {
+		if l.stats[i].typ() != l.types[i] {
+			return nil, errRestart // cannot happen (every change is caught as it happens); kept as a guard
+		}
+	}
+	return res, nil
+}
+
+// restart undoes a one-pass attempt: the table (or the rows appended to it) and the rejects
+// it stored go, and every count starts again.
+func (l *loader) restart(ctx context.Context, conn *sql.Conn) error {
+	if l.mode == "append" {
+		if _, err := conn.ExecContext(ctx, `DELETE FROM `+quoteIdent(l.table)+` WHERE ss_row >= ?`, l.firstRow); err != nil {
+			return fmt.Errorf("restart load of %s: %w", l.table, err)
+		}
+	} else if _, err := conn.ExecContext(ctx, `DROP TABLE `+quoteIdent(l.table)); err != nil {
+		return fmt.Errorf("restart load of %s: %w", l.table, err)
+	}
+	if _, err := conn.ExecContext(ctx, `DELETE FROM ss_rejects WHERE run_id = ? AND table_name = ?`, l.opts.RunID, l.table); err != nil {
+		return fmt.Errorf("restart load of %s: %w", l.table, err)
+	}
+	for _, s := range l.srcs {
+		s.rows, s.skipped, s.rejected = 0, 0, 0
+	}
+	l.types, l.problems, l.done, l.stats = nil, nil, 0, nil
+	l.total *= 2
+	return nil
 }
 
 func (l *loader) check(inputs []Input) error {
@@ -323,14 +409,6 @@ func quoteIdent(s string) string { return `"` + strings.ReplaceAll(s, `"`, `""`)
 
 func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`) + `'` }
 
-func statSize(path string) (int64, error) {
-	st, err := osStat(path)
-	if err != nil {
-		return 0, err
-	}
-	return st.Size(), nil
-}
-
 func (l *loader) progress(n int64) {
 	l.done += n
 	if l.opts.Progress != nil {
@@ -482,7 +560,7 @@ func (l *loader) pass1(ctx context.Context) error {
 		if err != nil {
 			return err
 		}
-		err = l.scan(ctx, si, s, rr, conv)
+		err = l.scan(ctx, si, s, rr, conv, 0)
 		done()
 		if err != nil {
 			return err
@@ -495,27 +573,12 @@ func (l *loader) pass1(ctx context.Context) error {
 	return nil
 }
 
-func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, conv *converter) error {
-	hdr, line, err := rr.header()
+// scan reads one input for pass 1: header checks, row problems, inference. With limit > 0 it
+// stops after that many records (the one-pass load's prefix).
+func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, conv *converter, limit int) error {
+	line, err := l.readHeader(si, s, rr)
 	if err != nil {
-		if errors.Is(err, errEmpty) {
-			if s.format == "jsonl" {
-				return &Problem{Source: s.name, Reason: "empty input: no JSON object"}
-			}
-			return &Problem{Source: s.name, Reason: "empty input: no header line"}
-		}
-		if line > 0 {
-			return &Problem{Source: s.name, Line: line, Reason: err.Error()}
-		}
-		return fmt.Errorf("read %s: %w", s.name, err)
-	}
-	if err := l.checkHeader(s, hdr, line); err != nil {
 		return err
-	}
-	if si == 0 {
-		if err := l.setupTypes(); err != nil {
-			return err
-		}
 	}
 	records := 0
 	for n := 0; ; n++ {
@@ -530,6 +593,9 @@ func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, c
 			break
 		}
 		records++
+		if limit > 0 && records > limit {
+			break
+		}
 		r := rr.rec()
 		if p := l.rowProblem(s, r, conv); p != nil {
 			if l.opts.OnError == "fail" {
@@ -552,12 +618,40 @@ func (l *loader) scan(ctx context.Context, si int, s *source, rr recordReader, c
 	return nil
 }
 
+// readHeader reads and checks an input's header; for the first input it also sets up the
+// column statistics. It returns the header's line.
+func (l *loader) readHeader(si int, s *source, rr recordReader) (int64, error) {
+	hdr, line, err := rr.header()
+	if err != nil {
+		if errors.Is(err, errEmpty) {
+			if s.format == "jsonl" {
+				return 0, &Problem{Source: s.name, Reason: "empty input: no JSON object"}
+			}
+			return 0, &Problem{Source: s.name, Reason: "empty input: no header line"}
+		}
+		if line > 0 {
+			return 0, &Problem{Source: s.name, Line: line, Reason: err.Error()}
+		}
+		return 0, fmt.Errorf("read %s: %w", s.name, err)
+	}
+	if err := l.checkHeader(s, hdr, line); err != nil {
+		return 0, err
+	}
+	if si == 0 && l.stats == nil {
+		if err := l.setupTypes(); err != nil {
+			return 0, err
+		}
+	}
+	return line, nil
+}
+
 // create makes (or replaces) the table.
 func (l *loader) create(ctx context.Context, conn *sql.Conn) error {
 	if l.mode == "append" {
 		return nil
 	}
-	if l.mode == "replace" {
+	if l.mode == "replace" && !l.replaced {
+		l.replaced = true
 		for _, q := range []string{
 			`DROP TABLE ` + quoteIdent(l.table),
 			`DELETE FROM ss_columns WHERE table_name = ?`,

@@ -80,7 +80,7 @@ func TestLoad_TypesValuesAndSystemColumns(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if res.Table != "pipes" || res.Rows != 3 || res.FirstRow != 1 {
+	if res.Table != "pipes" || res.Rows != 3 || res.FirstRow != 1 || res.Passes != 1 && prefixRecords > 3 {
 		t.Fatalf("result %+v", res)
 	}
 	var types []string
@@ -562,5 +562,74 @@ func TestLoad_RealDigestShortcut(t *testing.T) {
 		if want, _ := Digest(r[1], r[2]); r[0] != want {
 			t.Errorf("x=%v: ss_digest %v, Go %d", r[1], r[0], want)
 		}
+	}
+}
+
+// The one-pass load fixes provisional types from a prefix and restarts in two passes when a
+// later value contradicts them. With a one-record prefix nearly every test input restarts;
+// the results must be those of the two-pass load.
+func TestLoad_WithRestarts(t *testing.T) {
+	old := prefixRecords
+	prefixRecords = 1
+	defer func() { prefixRecords = old }()
+	for name, f := range map[string]func(*testing.T){
+		"types":        TestLoad_TypesValuesAndSystemColumns,
+		"digest":       TestLoad_DigestGoEqualsSQL,
+		"several":      TestLoad_SeveralInputsOneTable,
+		"append":       TestLoad_AppendReplaceRefuse,
+		"jsonl":        TestLoad_JSONL,
+		"onerror":      TestLoad_OnError,
+		"header":       TestLoad_HeaderProblems,
+		"batches":      TestLoad_ManyBatchesAcrossInputs,
+		"real digests": TestLoad_RealDigestShortcut,
+	} {
+		t.Run(name, f)
+	}
+}
+
+func TestLoad_RestartAfterContradiction(t *testing.T) {
+	old := prefixRecords
+	prefixRecords = 2
+	defer func() { prefixRecords = old }()
+	path := filepath.Join(t.TempDir(), "t.db")
+	// Rows 2–3 say INTEGER; row 5 says it is text; row 4 is bad and quarantined.
+	in := "n,m\n1,1.5\n2,2\n3\n4,x\n5,calm\n"
+	res, err := loadInto(t, path, []Input{csvIn("a.csv", in), csvIn("b.csv", "n,m\n6,7\n")}, Options{Table: "t", OnError: "quarantine"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Rows != 5 || res.Rejected != 1 || res.Columns[0].Type != TypeInteger || res.Columns[1].Type != TypeText {
+		t.Fatalf("result %+v", res)
+	}
+	if res.Passes != 2 {
+		t.Errorf("passes = %d, want 2 (a restart)", res.Passes)
+	}
+	if want := `"x" (a.csv:5) does not parse as REAL like the values before it`; res.Columns[1].Reason != want {
+		t.Errorf("reason %q, want %q", res.Columns[1].Reason, want)
+	}
+	db := openDB(t, path)
+	got := query(t, db.DB, `SELECT ss_row, ss_source, ss_line, n, m FROM t ORDER BY ss_row`)
+	want := [][]any{{int64(1), "a.csv", int64(2), int64(1), "1.5"}, {int64(2), "a.csv", int64(3), int64(2), "2"},
+		{int64(3), "a.csv", int64(5), int64(4), "x"}, {int64(4), "a.csv", int64(6), int64(5), "calm"}, {int64(5), "b.csv", int64(2), int64(6), "7"}}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("rows\n got %v\nwant %v", got, want)
+	}
+	if n := query(t, db.DB, `SELECT count(*) FROM ss_rejects`)[0][0]; n != int64(1) {
+		t.Errorf("ss_rejects has %v rows, want 1", n)
+	}
+	if bad := query(t, db.DB, res.DigestCheckSQL); len(bad) != 0 {
+		t.Errorf("digest check: %v", bad)
+	}
+	src := query(t, db.DB, `SELECT path, size, rows_loaded, rows_rejected FROM ss_sources ORDER BY source_id`)
+	if !reflect.DeepEqual(src, [][]any{{"a.csv", int64(len(in)), int64(4), int64(1)}, {"b.csv", int64(8), int64(1), int64(0)}}) {
+		t.Errorf("ss_sources %v", src)
+	}
+	// A --replace that restarts keeps its meaning.
+	res, err = loadInto(t, path, []Input{csvIn("c.csv", "n\n1\n2\nz\n")}, Options{Table: "t", Replace: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Mode != "replace" || res.Rows != 3 || res.Columns[0].Type != TypeText {
+		t.Errorf("replace result %+v", res)
 	}
 }

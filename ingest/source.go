@@ -66,15 +66,16 @@ func formatOf(in Input, def string) (string, error) {
 
 // source is an input being loaded: a file read twice (pass 1 infers, pass 2 loads).
 type source struct {
-	in      Input
-	name    string
-	format  string
-	path    string // file to open on each pass (the input or its spool)
-	spool   bool
-	gz      bool
-	size    int64
-	sha256  string
-	modTime time.Time
+	in       Input
+	name     string
+	format   string
+	path     string // file to open on each pass (the input or its spool)
+	spool    bool
+	gz       bool
+	size     int64
+	sha256   string
+	modTime  time.Time
+	statSize int64 // a plain file's size when the load began
 
 	rows, skipped, rejected int64
 }
@@ -116,7 +117,7 @@ func (s *source) prepare(tempDir string) error {
 		if st.IsDir() {
 			return fmt.Errorf("%s: is a directory", s.name)
 		}
-		s.modTime = st.ModTime()
+		s.modTime, s.statSize = st.ModTime(), st.Size()
 	}
 	f, err := os.Open(s.path)
 	if err != nil {
@@ -192,7 +193,7 @@ func (s *source) unchanged() error {
 	if err != nil {
 		return fmt.Errorf("%s: %w", s.name, err)
 	}
-	if st.Size() != s.size || !st.ModTime().Equal(s.modTime) {
+	if st.Size() != s.statSize || !st.ModTime().Equal(s.modTime) {
 		return fmt.Errorf("%s: the file changed while it was being loaded", s.name)
 	}
 	return nil

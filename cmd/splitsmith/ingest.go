@@ -145,6 +145,7 @@ func runIngest(ctx context.Context, cc *cli.Context, o ingestOptions, s stdio) e
 		tx.SetDetail("rows_loaded", r.Rows)
 		tx.SetDetail("rows_skipped", r.Skipped)
 		tx.SetDetail("rows_rejected", r.Rejected)
+		tx.SetDetail("passes", r.Passes)
 		tx.SetDetail("on_error", opts.OnError)
 		tx.SetDetail("missing", opts.Missing)
 		tx.SetDetail("columns", cols)

@@ -15,15 +15,21 @@
 // must be valid UTF-8. Inputs ending in .gz (or starting with the gzip magic bytes) are
 // decompressed on the fly.
 //
-// # Two passes, bounded memory
+// # One pass when the first rows settle the types, two otherwise; bounded memory
 //
-// Types are decided only after every value has been seen, so each input is read twice: pass
-// 1 checks every row and infers the types (and hashes the file), pass 2 converts, digests and
-// inserts. Files are simply opened twice (a changed size or time between the passes is an
-// error); standard input and io.Reader inputs are first spooled to a temporary file, whose
+// Types are decided only after every value has been seen, yet a table's column types must be
+// declared before its first row. Load first scans the first 10,000 records of the first
+// input and fixes provisional types from them; it then creates the table and reads every
+// input once, checking rows, inferring (every value still votes), converting, digesting and
+// inserting. If a value changes any column's type decision (a "calm" among numbers, a first
+// value in a column that was empty so far), the attempt is undone (the table dropped, or the
+// appended rows and stored rejects deleted, inside the same transaction) and the load runs in
+// two passes: pass 1 checks every row and infers, pass 2 converts and inserts. Result.Passes
+// says which happened. Files are simply opened again for each pass (a changed size or time is
+// an error); standard input and io.Reader inputs are first spooled to a temporary file, whose
 // SHA-256 and size are taken while spooling. Readers work in a reused buffer of 1 MiB that
 // grows only for a longer single record (up to 64 MiB), so memory does not grow with the
-// input. Pass 2 overlaps parsing (one goroutine) with SQLite's work: rows go out in
+// input. Loading overlaps parsing (one goroutine) with SQLite's work: rows go out in
 // multi-row INSERTs of about 150 rows through the driver's own statement interface, in the
 // caller's one transaction.
 //

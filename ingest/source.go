@@ -83,6 +83,31 @@ type source struct {
 // prepare opens (or spools) the input and fixes its path, size, SHA-256 (for spools) and
 // compression.
 func (s *source) prepare(tempDir string) error {
+	if s.in.Reader == nil && s.in.Name != "-" {
+		path := s.in.Path
+		if path == "" {
+			path = s.in.Name
+		}
+		st, err := os.Stat(path)
+		if err != nil {
+			if errors.Is(err, os.ErrNotExist) {
+				return fmt.Errorf("%s: no such file", s.name)
+			}
+			return fmt.Errorf("%s: %w", s.name, err)
+		}
+		if st.IsDir() {
+			return fmt.Errorf("%s: is a directory", s.name)
+		}
+		if !st.Mode().IsRegular() {
+			// A pipe or device (e.g. <(zcat log.csv.gz)) can be read only once: spool it.
+			f, err := os.Open(path)
+			if err != nil {
+				return fmt.Errorf("%s: %w", s.name, err)
+			}
+			defer f.Close()
+			s.in.Reader = f
+		}
+	}
 	if s.in.Reader != nil || s.in.Name == "-" && s.in.Path == "" {
 		r := s.in.Reader
 		if r == nil {

@@ -26,7 +26,7 @@
 // appended rows and stored rejects deleted, inside the same transaction) and the load runs in
 // two passes: pass 1 checks every row and infers, pass 2 converts and inserts. Result.Passes
 // says which happened. Files are simply opened again for each pass (a changed size or time is
-// an error); standard input and io.Reader inputs are first spooled to a temporary file, whose
+// an error); standard input, pipes and io.Reader inputs are first spooled to a temporary file, whose
 // SHA-256 and size are taken while spooling. Readers work in a reused buffer of 1 MiB that
 // grows only for a longer single record (up to 64 MiB), so memory does not grow with the
 // input. Loading overlaps parsing (one goroutine) with SQLite's work: rows go out in

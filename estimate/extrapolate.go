@@ -25,7 +25,7 @@ type Point struct {
 
 // Options tune Extrapolate. nil or zero fields mean the documented defaults.
 type Options struct {
-	// Families to try, by name (default: all of Families: pow3, pow2, exp3, log2).
+	// Families to try, by name (default: all of Families: pow3, pow2, exp3, log2, flat).
 	Families []string
 	// Target error T; 0 = none. n* is the n at which the chosen curve reaches T.
 	Target float64
@@ -81,15 +81,51 @@ type Result struct {
 	Bootstrap int           // refits that were used (draws whose fit failed are dropped)
 	Gap       *GapDiagnosis // nil unless Options.Train was given
 	Caution   string        // the planning caution every output carries
+	// Flat is true when the chosen family is flat: the error no longer falls with n, and the
+	// asymptote is the level the measurements sit at.
+	Flat bool
+	// AsymptoteUnidentified is true when the data do not pin the asymptote down: its
+	// interval spans more than a quarter of [0, level] (level = the fitted error at the largest
+	// size), or the fitted asymptote lies below the level by more than twice the whole fall
+	// measured (and by more than 5% of the level) (thresholds common practice, no source).
+	AsymptoteUnidentified bool
+	// AsymptoteLoAtBound is true when the interval's lower end is the constraint a ≥ 0 (at
+	// least (1 − Level)/2 of the bootstrap refits put a on the bound), not an estimate.
+	AsymptoteLoAtBound bool
+	// HorizonN is Horizon × the largest measured size: an n* beyond it is not a meaningful
+	// extrapolation.
+	HorizonN float64
+	// NStarBeyondHorizon is true when the fitted curve reaches the target only beyond
+	// HorizonN (NStar.Est is then still the fitted value, or +Inf past MaxNStar); such a
+	// target counts as not reachable with this capacity.
+	NStarBeyondHorizon bool
 }
+
+// Horizon is how far beyond the largest measured size an n* is still reported as an
+// estimate (1000×; common practice, no source): a learning curve fitted over a decade or two
+// of sizes says nothing dependable three decades further on.
+const Horizon = 1000
 
 // GapDiagnosis describes the train–holdout gap.
 type GapDiagnosis struct {
 	Ratio           float64 // training error / holdout error at the largest size
 	Gap             float64 // holdout − training error at the largest size
 	Exponent        float64 // c in gap ≈ b·n^(−c) (OLS of ln gap on ln n); ≤ 0 when the gap does not shrink; NaN if not fitted
-	VarianceLimited bool    // training error is far below holdout error (Ratio < 0.5; common practice, no source)
+	VarianceLimited bool    // training error is far below holdout error at the largest size (Ratio < VarianceRatio)
+	// BySize is the gap at every size with training points, ascending.
+	BySize []GapAt
 }
+
+// GapAt is the train–holdout gap at one size (mean errors over the repeats).
+type GapAt struct {
+	N, Train, Holdout float64
+	Ratio             float64 // Train / Holdout (NaN when Holdout is 0)
+	VarianceLimited   bool    // Ratio < VarianceRatio
+}
+
+// VarianceRatio: training error below this fraction of holdout error counts as
+// variance-limited (overfitting) (common practice, no source).
+const VarianceRatio = 0.5
 
 // Caution is attached to every estimate.
 const Caution = "These are planning estimates from an extrapolation, not guarantees; defer to local rules and qualified statistical review before acting on them."
@@ -226,6 +262,15 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 	if bestIdx < 0 {
 		return nil, errors.New("no curve family could be fitted to these points")
 	}
+	// Parsimony: a flat curve is chosen when its backtest is within the noise of the best
+	// falling family's (see flatTolerance), so noise that happens to slope does not buy a
+	// falling curve with an asymptote far below the data.
+	for i, f := range res.Fits {
+		if fams[i].Name == "flat" && i != bestIdx && !math.IsNaN(f.RSS) && !math.IsNaN(f.BacktestErr) && !math.IsNaN(res.Fits[bestIdx].BacktestErr) &&
+			f.BacktestErr <= res.Fits[bestIdx].BacktestErr+flatTolerance(groups, data, hold, mode, res.Fits[bestIdx], fams[bestIdx]) {
+			bestIdx = i
+		}
+	}
 	res.Best = res.Fits[bestIdx]
 	fam := fams[bestIdx]
 
@@ -262,10 +307,19 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 	if fam.Name == "pow2" || fam.Name == "log2" {
 		res.Asymptote = Interval{Method: "none"}
 	}
+	res.Flat = fam.Name == "flat"
+	largest := res.Sizes[len(res.Sizes)-1]
+	res.HorizonN = Horizon * largest
+	if res.Asymptote.Method != "none" && !res.Flat {
+		identify(res, fam, boot)
+	}
 	if o.Target > 0 {
 		ns := iv(1)
 		res.NStar = &ns
-		res.Reachable = o.Target > res.Asymptote.Hi && !math.IsInf(est[1], 1)
+		raw := solveNStar(fam, o.Target, res.Best.Params)
+		below := res.Asymptote.Method != "none" && o.Target <= res.Asymptote.Est
+		res.NStarBeyondHorizon = !below && raw > res.HorizonN
+		res.Reachable = o.Target > res.Asymptote.Hi && !math.IsInf(est[1], 1) && !res.NStarBeyondHorizon
 	}
 	if o.At > 0 {
 		a := iv(2)
@@ -280,6 +334,77 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 	}
 	res.Verdict = verdict(res, o)
 	return res, nil
+}
+
+// flatTolerance is how much larger the flat family's backtest error may be than the best
+// falling family's and still be preferred: twice the relative standard error of the mean
+// error at the held-out sizes (variances across repeats smoothed in ln n as the fit's
+// weights are; without repeats, the falling fit's residual RMS), a difference the noise
+// alone can make (common practice, no source).
+func flatTolerance(groups []sizeGroup, d curveData, hold int, mode string, best Fit, fam *Family) float64 {
+	m := len(d.n)
+	var se []float64
+	if mode == "repeats" {
+		vars := make([]float64, m)
+		for i, g := range groups {
+			R := float64(len(g.errs))
+			var ss float64
+			for _, v := range g.errs {
+				ss += (v - d.e[i]) * (v - d.e[i])
+			}
+			vars[i] = ss / (R - 1) / R
+		}
+		if sm := smoothLogVar(d.n, vars); sm != nil {
+			vars = sm
+		}
+		for _, v := range vars {
+			se = append(se, math.Sqrt(v))
+		}
+	} else {
+		var rss float64
+		for i := range d.n {
+			r := d.e[i] - fam.F(d.n[i], best.Params)
+			rss += r * r
+		}
+		s := math.Sqrt(rss / math.Max(float64(m-len(fam.Params)), 1))
+		for range d.n {
+			se = append(se, s)
+		}
+	}
+	var t float64
+	for i := m - hold; i < m; i++ {
+		t += se[i] / math.Max(d.e[i], 1e-12)
+	}
+	return 2 * t / float64(hold)
+}
+
+// identify decides whether the data pin the chosen family's asymptote down (see
+// Result.AsymptoteUnidentified and AsymptoteLoAtBound).
+func identify(res *Result, fam *Family, boot [][3]float64) {
+	a := res.Asymptote
+	p := res.Best.Params
+	level := fam.F(res.Sizes[len(res.Sizes)-1], p)
+	fall := fam.F(res.Sizes[0], p) - level // the fall the measurements span
+	if !(level > 0) {
+		return
+	}
+	eps := 1e-6 * level
+	var at float64
+	for _, b := range boot {
+		if b[0] <= fam.Lower[0]+eps {
+			at++
+		}
+	}
+	res.AsymptoteLoAtBound = len(boot) > 0 && at/float64(len(boot)) >= (1-res.Level)/2 || a.Lo <= fam.Lower[0]+eps
+	remaining := level - a.Est
+	switch {
+	case math.IsNaN(a.Lo) || math.IsNaN(a.Hi) || math.IsInf(a.Hi, 0):
+		res.AsymptoteUnidentified = true
+	case a.Hi-a.Lo > 0.25*level:
+		res.AsymptoteUnidentified = true
+	case remaining > 2*fall && remaining > 0.05*level:
+		res.AsymptoteUnidentified = true
+	}
 }
 
 func nanSlice(k int) []float64 {
@@ -693,9 +818,11 @@ func gapDiagnosis(groups []sizeGroup, train []Point) (*GapDiagnosis, error) {
 		}
 		hm := s / float64(len(g.errs))
 		gd.Gap = hm - tm
+		gd.Ratio = math.NaN()
 		if hm > 0 {
 			gd.Ratio = tm / hm
 		}
+		gd.BySize = append(gd.BySize, GapAt{N: g.n, Train: tm, Holdout: hm, Ratio: gd.Ratio, VarianceLimited: gd.Ratio < VarianceRatio})
 		if hm-tm > 0 {
 			ns = append(ns, g.n)
 			gaps = append(gaps, hm-tm)
@@ -720,7 +847,7 @@ func gapDiagnosis(groups []sizeGroup, train []Point) (*GapDiagnosis, error) {
 			gd.Exponent = -(k*sxy - sx*sy) / den
 		}
 	}
-	gd.VarianceLimited = gd.Ratio < 0.5
+	gd.VarianceLimited = gd.Ratio < VarianceRatio
 	return gd, nil
 }
 
@@ -734,49 +861,137 @@ func verdict(r *Result, o Options) string {
 		fmt.Fprintf(&b, "; refitted without the largest sizes it predicted them within %.1f%% on average (backtest)", 100*r.Best.BacktestErr)
 	}
 	b.WriteString(".")
-	if r.Asymptote.Method != "none" {
-		fmt.Fprintf(&b, " Its asymptote, the error more data cannot remove, is %s (%s interval %s to %s).", num(r.Asymptote.Est), pct, num(r.Asymptote.Lo), num(r.Asymptote.Hi))
+	switch {
+	case r.Flat:
+		fmt.Fprintf(&b, " The holdout error no longer falls with n over the measured sizes: it stays at about %s (%s interval %s to %s), and more data of the same kind is not expected to lower it.", num(r.Asymptote.Est), pct, num(r.Asymptote.Lo), num(r.Asymptote.Hi))
+	case r.Asymptote.Method != "none" && r.AsymptoteUnidentified:
+		fmt.Fprintf(&b, " Its asymptote, the error more data cannot remove, is not identified by these data: the %s interval runs from %s to %s, so the measured sizes do not show where the curve levels off.", pct, AsymptoteLoString(r), num(r.Asymptote.Hi))
+	case r.Asymptote.Method != "none":
+		fmt.Fprintf(&b, " Its asymptote, the error more data cannot remove, is %s (%s interval %s to %s).", num(r.Asymptote.Est), pct, AsymptoteLoString(r), num(r.Asymptote.Hi))
 	}
 	if r.NStar != nil {
 		T := o.Target
 		switch {
+		case r.Flat && T < r.Asymptote.Est:
+			fmt.Fprintf(&b, " The target %s is below that level: not reachable with this capacity; more data will not get there, more capacity might.", num(T))
+		case r.Flat:
+			fmt.Fprintf(&b, " The target %s is at or above that level: the measured sizes already meet it on average.", num(T))
+		case r.AsymptoteUnidentified && !r.Reachable:
+			fmt.Fprintf(&b, " Whether the target %s can be reached with this capacity is not settled by these sizes (%s); measure at larger sizes, or try more capacity, before planning on it.", num(T), fittedAlone(r))
 		case T <= r.Asymptote.Est && r.Asymptote.Method != "none":
 			fmt.Fprintf(&b, " The target %s is at or below the asymptote: not reachable with this capacity; more data will not get there, more capacity might.", num(T))
-		case math.IsInf(r.NStar.Est, 1):
-			fmt.Fprintf(&b, " The curve falls so slowly that it would reach the target %s only beyond 10^15 samples: in practice not reachable with this capacity; more data will not get there, more capacity might.", num(T))
+		case r.NStarBeyondHorizon || math.IsInf(r.NStar.Est, 1):
+			fmt.Fprintf(&b, " The fitted curve would reach the target %s only beyond %g× the largest measured size (%s samples), which is not a meaningful extrapolation: in practice not reachable with this capacity; more data will not get there, more capacity might.", num(T), float64(Horizon), sizeNum(math.Round(r.HorizonN)))
 		case !r.Reachable:
-			fmt.Fprintf(&b, " The target %s lies within the asymptote's interval: it may not be reachable with this capacity (the point estimate is n* ≈ %s, upper bound %s); more capacity might be needed.", num(T), num(r.NStar.Est), num(r.NStar.Hi))
+			fmt.Fprintf(&b, " The target %s lies within the asymptote's interval: it may not be reachable with this capacity (the point estimate is n* ≈ %s, upper bound %s); more capacity might be needed.", num(T), sizeNum(r.NStar.Est), nstarPhrase(r, r.NStar.Hi))
 		case r.NStar.Est <= largest:
-			fmt.Fprintf(&b, " The fitted curve already reaches the target %s within the measured sizes, at n* ≈ %s (%s interval %s to %s).", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi))
+			fmt.Fprintf(&b, " The fitted curve already reaches the target %s within the measured sizes, at n* ≈ %s (%s interval %s to %s).", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), nstarPhrase(r, r.NStar.Hi))
 		default:
-			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), sizeNum(r.NStar.Hi), r.NStar.Est/largest)
-			switch {
-			case r.NStar.Est > 1000*largest:
-				b.WriteString(" That is more than 1000× beyond the measured sizes, further than any extrapolation can be trusted: read it as \"not within reach with this capacity\".")
-			case r.NStar.Est > 10*largest:
+			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), nstarPhrase(r, r.NStar.Hi), r.NStar.Est/largest)
+			if r.NStar.Est > 10*largest {
 				b.WriteString(" That is far beyond the measured sizes: treat it as a rough guide.")
 			}
 		}
 	}
 	if r.AtErr != nil {
 		fmt.Fprintf(&b, " At n = %s the expected error is %s (%s interval %s to %s).", sizeNum(o.At), num(r.AtErr.Est), pct, num(r.AtErr.Lo), num(r.AtErr.Hi))
+		if o.At > r.HorizonN {
+			fmt.Fprintf(&b, " That size is beyond %g× the largest measured one: not a meaningful extrapolation.", float64(Horizon))
+		}
 	}
 	if g := r.Gap; g != nil {
-		if g.VarianceLimited {
-			fmt.Fprintf(&b, " Training error is %.0f%% of holdout error at the largest size: the model is variance-limited (overfitting)", 100*g.Ratio)
-			if !math.IsNaN(g.Exponent) && g.Exponent > 0 {
-				fmt.Fprintf(&b, "; the gap shrinks about as n^(−%.2g), so more data helps, and so would less capacity or more regularisation.", g.Exponent)
-			} else if !math.IsNaN(g.Exponent) {
-				b.WriteString("; the gap is not shrinking over the measured sizes, so less capacity or more regularisation is the first remedy.")
-			} else {
-				b.WriteString("; more data, less capacity or more regularisation would help.")
-			}
-		} else if r.NStar != nil && !r.Reachable {
-			b.WriteString(" Training error is close to holdout error: the model is bias-limited (underfitting).")
-		}
+		b.WriteString(gapSentences(g, r.NStar != nil && !r.Reachable))
 	}
 	b.WriteString(" " + Caution)
 	return b.String()
+}
+
+// gapSentences describes the train–holdout gap size by size: where training error is far
+// below holdout error (variance-limited) and how the gap shrinks with n.
+func gapSentences(g *GapDiagnosis, unreachable bool) string {
+	var b strings.Builder
+	var vl []string
+	for _, s := range g.BySize {
+		if s.VarianceLimited {
+			vl = append(vl, fmt.Sprintf("n = %s (%.0f%%)", sizeNum(s.N), 100*s.Ratio))
+		}
+	}
+	shrink := ""
+	if k := len(g.BySize); k >= 2 {
+		f, l := g.BySize[0], g.BySize[k-1]
+		shrink = fmt.Sprintf("the gap (holdout − training error) goes from %s at n = %s to %s at n = %s", num(f.Holdout-f.Train), sizeNum(f.N), num(l.Holdout-l.Train), sizeNum(l.N))
+		if !math.IsNaN(g.Exponent) && g.Exponent > 0 {
+			shrink += fmt.Sprintf(", shrinking about as n^(−%.2g)", g.Exponent)
+		} else if !math.IsNaN(g.Exponent) {
+			shrink += ", not shrinking over the measured sizes"
+		}
+	}
+	switch {
+	case g.VarianceLimited:
+		fmt.Fprintf(&b, " Training error is %.0f%% of holdout error at the largest size: the model is variance-limited (overfitting)", 100*g.Ratio)
+		if len(vl) > 1 {
+			fmt.Fprintf(&b, ", as at every size where training error is under half the holdout error: %s", strings.Join(vl, ", "))
+		}
+		if shrink != "" {
+			b.WriteString("; " + shrink)
+		}
+		switch {
+		case !math.IsNaN(g.Exponent) && g.Exponent > 0:
+			b.WriteString(", so more data helps, and so would less capacity or more regularisation.")
+		case !math.IsNaN(g.Exponent):
+			b.WriteString(", so less capacity or more regularisation is the first remedy.")
+		default:
+			b.WriteString("; more data, less capacity or more regularisation would help.")
+		}
+	case len(vl) > 0:
+		fmt.Fprintf(&b, " Training error is under half the holdout error at %s: variance-limited (overfitting) there", strings.Join(vl, ", "))
+		if shrink != "" {
+			b.WriteString("; " + shrink)
+		}
+		fmt.Fprintf(&b, "; at the largest size training error is %.0f%% of holdout error, so there the gap no longer dominates", 100*g.Ratio)
+		if unreachable {
+			b.WriteString(" and the model is bias-limited (underfitting).")
+		} else {
+			b.WriteString(".")
+		}
+	case unreachable:
+		fmt.Fprintf(&b, " Training error is close to holdout error at every measured size (%.0f%% at the largest): the model is bias-limited (underfitting).", 100*g.Ratio)
+	}
+	return b.String()
+}
+
+// fittedAlone says what the fitted curve by itself would give for n*, marked as undependable.
+func fittedAlone(r *Result) string {
+	v := r.NStar.Est
+	switch {
+	case math.IsInf(v, 1) && !(r.HorizonN > 0 && !r.NStarBeyondHorizon):
+		return "the fitted curve alone does not reach it within any meaningful extrapolation"
+	case math.IsInf(v, 1):
+		return "the fitted curve alone levels off above it"
+	case v > r.HorizonN:
+		return fmt.Sprintf("the fitted curve alone puts n* beyond %g× the data, not a dependable figure", float64(Horizon))
+	}
+	return fmt.Sprintf("the fitted curve alone puts n* at %s, not a dependable figure", sizeNum(v))
+}
+
+// AsymptoteLoString prints the lower end of the asymptote's interval, "0 (bound)" when it is
+// the constraint a ≥ 0 rather than an estimate.
+func AsymptoteLoString(r *Result) string {
+	if r.AsymptoteLoAtBound {
+		return num(math.Max(r.Asymptote.Lo, 0)) + " (bound)"
+	}
+	return num(r.Asymptote.Lo)
+}
+
+// NStarString prints an n* (or an end of its interval) for people: the size rounded up, or
+// "beyond 1000× the data" past the result's horizon.
+func NStarString(r *Result, v float64) string { return nstarPhrase(r, v) }
+
+func nstarPhrase(r *Result, v float64) string {
+	if r != nil && r.HorizonN > 0 && v > r.HorizonN && !math.IsNaN(v) {
+		return fmt.Sprintf("beyond %g× the data", float64(Horizon))
+	}
+	return sizeNum(v)
 }
 
 func familyDoc(name string) string {

@@ -74,6 +74,9 @@ func TestNStarPow3(t *testing.T) {
 	// numeric root finding agrees with every family's closed form
 	params := map[string][]float64{"pow3": {0.05, 2, 0.5}, "pow2": {2, 0.4}, "exp3": {0.05, 0.5, 0.001}, "log2": {0.9, -0.07}}
 	for _, fam := range Families {
+		if fam.Name == "flat" {
+			continue // a constant curve meets a target at its level at every n: no unique n*
+		}
 		p := params[fam.Name]
 		T := fam.F(3000, p)
 		closed := fam.NStar(T, p)
@@ -228,7 +231,7 @@ func TestExtrapolate_IndependentOfCores(t *testing.T) {
 func TestVerdict(t *testing.T) {
 	base := func() *Result {
 		return &Result{Best: Fit{Family: "pow3", BacktestErr: 0.02}, Sizes: []float64{100, 1000}, Level: 0.95,
-			Asymptote: Interval{Est: 0.1, Lo: 0.08, Hi: 0.12, Method: "bca"}, Reachable: true}
+			Asymptote: Interval{Est: 0.1, Lo: 0.08, Hi: 0.12, Method: "bca"}, Reachable: true, HorizonN: 1e6}
 	}
 	cases := []struct {
 		name   string
@@ -242,12 +245,13 @@ func TestVerdict(t *testing.T) {
 		{"within the data", 0.2, Interval{Est: 500, Lo: 400, Hi: 600}, true, "already reaches the target 0.2 within the measured sizes"},
 		{"extrapolated", 0.15, Interval{Est: 4000, Lo: 3000, Hi: 6000}, true, "reaches the target 0.15 at n* ≈ 4000"},
 		{"far", 0.13, Interval{Est: 50000, Lo: 20000, Hi: 90000}, true, "far beyond the measured sizes"},
-		{"absurdly far", 0.13, Interval{Est: 5e7, Lo: 1e6, Hi: inf}, true, "more than 1000× beyond the measured sizes"},
+		{"absurdly far", 0.13, Interval{Est: 5e7, Lo: 1e6, Hi: inf}, false, "only beyond 1000× the largest measured size (1000000 samples), which is not a meaningful extrapolation"},
 	}
 	for _, c := range cases {
 		r := base()
 		ns := c.nstar
 		r.NStar, r.Reachable = &ns, c.reach
+		r.NStarBeyondHorizon = c.name == "absurdly far"
 		v := verdict(r, Options{Target: c.target})
 		if !strings.Contains(v, c.want) || !strings.Contains(v, Caution) {
 			t.Errorf("%s: verdict %q lacks %q", c.name, v, c.want)
@@ -257,7 +261,22 @@ func TestVerdict(t *testing.T) {
 	r.Asymptote = Interval{Method: "none"}
 	ns := Interval{Est: inf, Lo: inf, Hi: inf}
 	r.NStar, r.Reachable = &ns, false
-	if v := verdict(r, Options{Target: 0.05}); !strings.Contains(v, "falls so slowly") {
+	if v := verdict(r, Options{Target: 0.05}); !strings.Contains(v, "not a meaningful extrapolation: in practice not reachable") {
 		t.Errorf("no asymptote, never reached: %q", v)
+	}
+	// flat: the level with its interval, a target below it not reachable
+	r = base()
+	r.Best.Family, r.Flat = "flat", true
+	r.NStar, r.Reachable = &Interval{Est: inf, Lo: inf, Hi: inf}, false
+	if v := verdict(r, Options{Target: 0.09}); !strings.Contains(v, "no longer falls with n") || !strings.Contains(v, "below that level: not reachable with this capacity") {
+		t.Errorf("flat: %q", v)
+	}
+	// unidentified asymptote with its lower end on the bound
+	r = base()
+	r.Asymptote = Interval{Est: 0.02, Lo: 0, Hi: 0.12, Method: "bca"}
+	r.AsymptoteUnidentified, r.AsymptoteLoAtBound = true, true
+	r.NStar, r.Reachable = &Interval{Est: 8000, Lo: 2000, Hi: inf}, false
+	if v := verdict(r, Options{Target: 0.1}); !strings.Contains(v, "is not identified by these data: the 95% interval runs from 0 (bound) to 0.12") || !strings.Contains(v, "not settled by these sizes") {
+		t.Errorf("unidentified: %q", v)
 	}
 }

@@ -31,7 +31,7 @@ const cMin = 1e-9 // c > 0: the lower bound LeastSquares enforces
 var inf = math.Inf(1)
 
 // Families is every built-in curve family, in the order they are tried and reported.
-var Families = []*Family{pow3Family, pow2Family, exp3Family, log2Family}
+var Families = []*Family{pow3Family, pow2Family, exp3Family, log2Family, flatFamily}
 
 // FamilyByName returns the named family or an error listing the known ones.
 func FamilyByName(name string) (*Family, error) {
@@ -40,7 +40,7 @@ func FamilyByName(name string) (*Family, error) {
 			return f, nil
 		}
 	}
-	return nil, fmt.Errorf("unknown curve family %q (known: pow3, pow2, exp3, log2)", name)
+	return nil, fmt.Errorf("unknown curve family %q (known: pow3, pow2, exp3, log2, flat)", name)
 }
 
 var pow3Family = &Family{
@@ -142,6 +142,33 @@ var log2Family = &Family{
 		k := float64(len(n))
 		b := (k*sxy - sx*sy) / (k*sxx - sx*sx)
 		return []float64{(sy - b*sx) / k, b}
+	},
+}
+
+// flatFamily is the constant curve err(n) = a: a holdout error that no longer falls with n.
+// It competes with the falling families, so a curve that has stopped falling is called flat
+// and its level (the asymptote) gets an honest interval instead of an extrapolated one.
+var flatFamily = &Family{
+	Name:      "flat",
+	Doc:       "flat a (the error no longer falls with n)",
+	Params:    []string{"a"},
+	F:         func(n float64, p []float64) float64 { return p[0] },
+	Grad:      func(n float64, p, g []float64) { g[0] = 1 },
+	Lower:     []float64{0},
+	Upper:     []float64{inf},
+	Asymptote: func(p []float64) float64 { return p[0] },
+	NStar: func(T float64, p []float64) float64 {
+		if T < p[0] {
+			return inf
+		}
+		return 1 // every n is at or below T
+	},
+	Start: func(n, e []float64) []float64 {
+		var s float64
+		for _, v := range e {
+			s += v
+		}
+		return []float64{s / float64(len(e))}
 	},
 }
 

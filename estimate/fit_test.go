@@ -186,7 +186,7 @@ func TestLeastSquares_Weights(t *testing.T) {
 
 // TestFamilies_Grad checks each family's analytic gradient against central differences.
 func TestFamilies_Grad(t *testing.T) {
-	params := map[string][]float64{"pow3": {0.1, 2, 0.6}, "pow2": {2, 0.6}, "exp3": {0.1, 0.5, 0.001}, "log2": {0.9, -0.05}}
+	params := map[string][]float64{"pow3": {0.1, 2, 0.6}, "pow2": {2, 0.6}, "exp3": {0.1, 0.5, 0.001}, "log2": {0.9, -0.05}, "flat": {0.3}}
 	for _, fam := range Families {
 		p := params[fam.Name]
 		g := make([]float64, len(p))

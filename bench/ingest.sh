@@ -38,15 +38,18 @@ ours() {
 export -f base ours
 export W
 
-best_base=999999; best_ours=999999
-for i in 1 2 3; do
+RUNS=${RUNS:-5}
+best_base=999999; best_ours=999999; ratios=()
+for i in $(seq "$RUNS"); do
   read -r bw bc _ < <(timed bash -c base)
   read -r ow oc orss < <(timed bash -c ours)
-  echo "run $i: sqlite3 .import ${bw}s (cpu ${bc}s), splitsmith ingest ${ow}s (cpu ${oc}s, peak RSS $(( orss / 1024 )) MiB), ratio $(echo "scale=2; $bw / $ow" | bc -l)"
+  r=$(echo "scale=2; $bw / $ow" | bc -l); ratios+=("$r")
+  echo "run $i: sqlite3 .import ${bw}s (cpu ${bc}s), splitsmith ingest ${ow}s (cpu ${oc}s, peak RSS $(( orss / 1024 )) MiB), ratio $r"
   best_base=$(echo "if ($bw < $best_base) $bw else $best_base" | bc -l)
   best_ours=$(echo "if ($ow < $best_ours) $ow else $best_ours" | bc -l)
 done
 n_base=$(sqlite3 "$W/base.db" 'SELECT count(*) FROM t'); n_ours=$(sqlite3 "$W/ours.db" 'SELECT count(*) FROM t')
 [ "$n_base" = "$n_ours" ] || { echo "row counts differ: $n_base vs $n_ours" >&2; exit 1; }
-printf 'best of 3: sqlite3 %.2fs, splitsmith %.2fs, ratio (sqlite3/splitsmith; 1.0 = parity, floor 0.8) %.2f\n' "$best_base" "$best_ours" "$(echo "$best_base / $best_ours" | bc -l)"
+median=$(printf '%s\n' "${ratios[@]}" | sort -n | awk '{a[NR]=$1} END {print (NR%2 ? a[(NR+1)/2] : (a[NR/2]+a[NR/2+1])/2)}')
+printf 'best of %d: sqlite3 %.2fs, splitsmith %.2fs, ratio %.2f; median of the per-run ratios %.2f (sqlite3/splitsmith; 1.0 = parity, floor 0.8)\n' "$RUNS" "$best_base" "$best_ours" "$(echo "$best_base / $best_ours" | bc -l)" "$median"
 echo "load average: $(cut -d' ' -f1-3 /proc/loadavg) (the machine's other work slows both; compare within a run)"

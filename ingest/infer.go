@@ -518,7 +518,16 @@ func parseFloatFast(b []byte) (float64, bool) {
 // trimFraction drops trailing zeros of a decimal's fraction, and the point when nothing is
 // left after it ("200.000" → "200", "1.50" → "1.5"); text without a point is returned as is.
 func trimFraction(b []byte) []byte {
-	if bytes.IndexByte(b, '.') < 0 || bytes.ContainsAny(b, "eE") {
+	dot := false
+	for _, c := range b {
+		switch c {
+		case 'e', 'E':
+			return b
+		case '.':
+			dot = true
+		}
+	}
+	if !dot {
 		return b
 	}
 	for len(b) > 0 && b[len(b)-1] == '0' {

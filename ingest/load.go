@@ -751,9 +751,8 @@ func (c *converter) value(t Type, lenient bool, b []byte) (driver.Value, bool) {
 		}
 		return nil, false
 	case TypeReal:
-		if !lenient && classifyNumber(b)&mReal == 0 {
-			return nil, false
-		}
+		// Inference already checked an inferred column's grammar (and a changed file is caught
+		// by its size and time), so only the parse is left.
 		v, ok := parseFloatFast(b)
 		if !ok {
 			var err error

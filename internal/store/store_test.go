@@ -134,3 +134,17 @@ func TestCheckUserName(t *testing.T) {
 		}
 	}
 }
+
+func TestUpdate_RemovesStaleBuilds(t *testing.T) {
+	dir := t.TempDir()
+	stale := filepath.Join(dir, ".a.db.tmp-999999999") // no such process
+	if err := os.WriteFile(stale, []byte("half-built"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := Update(context.Background(), filepath.Join(dir, "a.db"), Options{}, true, Run{Command: "test"}, func(context.Context, *Tx) error { return nil }); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := os.Stat(stale); !os.IsNotExist(err) {
+		t.Errorf("stale build %s was not removed", stale)
+	}
+}

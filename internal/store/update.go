@@ -14,6 +14,8 @@ import (
 	"path/filepath"
 	"runtime/debug"
 	"strconv"
+	"strings"
+	"syscall"
 	"time"
 )
 
@@ -92,6 +94,7 @@ func Update(ctx context.Context, path string, opts Options, create bool, run Run
 		if st, err := os.Stat(dir); err != nil || !st.IsDir() {
 			return fmt.Errorf("%s: directory %s does not exist", path, dir)
 		}
+		removeStaleBuilds(dir, filepath.Base(path))
 		path = filepath.Join(dir, "."+filepath.Base(path)+".tmp-"+strconv.Itoa(os.Getpid()))
 		os.Remove(path)
 		defer func() {
@@ -227,4 +230,19 @@ func (t *Tx) AddAuditQuery(ctx context.Context, subject, name, kind, description
 		ON CONFLICT(subject, name) DO UPDATE SET run_id=excluded.run_id, kind=excluded.kind, description=excluded.description, sql=excluded.sql, needs_tool=excluded.needs_tool`,
 		t.RunID, subject, name, kind, description, query, nt)
 	return err
+}
+
+// removeStaleBuilds deletes half-built files (.NAME.tmp-PID) left beside a target by a
+// process that was killed: their PID no longer runs. A build in progress is left alone.
+func removeStaleBuilds(dir, base string) {
+	matches, _ := filepath.Glob(filepath.Join(dir, "."+base+".tmp-*"))
+	for _, m := range matches {
+		pid, err := strconv.Atoi(m[strings.LastIndex(m, "-")+1:])
+		if err != nil || pid <= 0 || pid == os.Getpid() {
+			continue
+		}
+		if err := syscall.Kill(pid, 0); errors.Is(err, syscall.ESRCH) {
+			os.Remove(m)
+		}
+	}
 }

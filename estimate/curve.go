@@ -801,21 +801,39 @@ func sweepVerdict(r *SweepReport) string {
 					fmt.Fprintf(&b, " That is about %s more rows than the training side has.", fmtN(iv.Est-float64(r.TrainRows)))
 				}
 			}
-		} else {
-			fmt.Fprintf(&b, "No capacity tried reaches the target %s %g: more data will not get there; more capacity might.", r.Metric, r.Target)
 		}
-		var unreach, noisy []string
+		var unreach, noisy, unsettled, far []string
 		for _, c := range r.Capacities {
-			if c.Result != nil && c.Result.NStar != nil && !c.Result.Reachable && !c.Reached && r.BestNStar != nil {
-				if c.Result.Gap != nil && c.Result.Gap.VarianceLimited {
+			if c.Result != nil && c.Result.NStar != nil && !c.Result.Reachable && !c.Reached {
+				switch {
+				case c.Result.AsymptoteUnidentified:
+					unsettled = append(unsettled, lab(c.Capacity))
+				case c.Result.NStarBeyondHorizon:
+					far = append(far, lab(c.Capacity))
+				case r.BestNStar == nil:
+				case c.Result.Gap != nil && c.Result.Gap.VarianceLimited:
 					noisy = append(noisy, lab(c.Capacity))
-				} else {
+				default:
 					unreach = append(unreach, lab(c.Capacity))
 				}
 			}
 		}
+		if r.BestNStar == nil {
+			if len(unsettled) > 0 {
+				fmt.Fprintf(&b, "No capacity tried is shown to reach the target %s %g: with %s the asymptote is not identified by the measured sizes, so whether more data would get there is not settled; measure at larger sizes, or try more capacity.", r.Metric, r.Target, strings.Join(unsettled, ", "))
+				unsettled = nil
+			} else {
+				fmt.Fprintf(&b, "No capacity tried reaches the target %s %g: more data will not get there; more capacity might.", r.Metric, r.Target)
+			}
+		}
 		if len(unreach) > 0 {
-			fmt.Fprintf(&b, " With %s the target is at or below the fitted asymptote: more data will not get there, more capacity might (underfitting).", strings.Join(unreach, ", "))
+			fmt.Fprintf(&b, " With %s the target is at or below the fitted asymptote (or the flat level): more data will not get there, more capacity might (underfitting).", strings.Join(unreach, ", "))
+		}
+		if len(unsettled) > 0 {
+			fmt.Fprintf(&b, " With %s the asymptote is not identified by the measured sizes: whether more data would reach the target is not settled.", strings.Join(unsettled, ", "))
+		}
+		if len(far) > 0 {
+			fmt.Fprintf(&b, " With %s the fitted curve would reach the target only beyond %g× the largest measured size: not a meaningful extrapolation, in practice not reachable.", strings.Join(far, ", "), float64(Horizon))
 		}
 		var inc []string
 		for _, c := range r.Capacities {
@@ -884,6 +902,24 @@ func sweepVerdict(r *SweepReport) string {
 	}
 	if len(over) > 0 {
 		fmt.Fprintf(&b, " Variance-limited (overfitting) at the largest size: %s; more data narrows the gap.", strings.Join(over, "; "))
+	}
+	var early []string
+	for _, c := range r.Capacities {
+		if c.Result == nil || c.Result.Gap == nil || c.Result.Gap.VarianceLimited {
+			continue
+		}
+		var at []string
+		for _, g := range c.Result.Gap.BySize {
+			if g.VarianceLimited {
+				at = append(at, fmt.Sprintf("%g", g.N))
+			}
+		}
+		if len(at) > 0 {
+			early = append(early, fmt.Sprintf("%s at n = %s", lab(c.Capacity), strings.Join(at, ", ")))
+		}
+	}
+	if len(early) > 0 {
+		fmt.Fprintf(&b, " Variance-limited (training error under half the holdout error) only at smaller sizes: %s; the gap narrows with n.", strings.Join(early, "; "))
 	}
 	b.WriteString(" " + Caution)
 	return strings.TrimSpace(b.String())

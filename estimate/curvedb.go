@@ -514,6 +514,13 @@ func SaveCurves(ctx context.Context, conn *sql.Conn, cr *CurveRun) error {
 			variance_limited, gap_exponent, verdict) VALUES (?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)`, vals...); err != nil {
 			return fmt.Errorf("store curve fits: %w", err)
 		}
+		if r := c.Result; r != nil {
+			id, lob, hor, beyond := honestyValues(r)
+			if _, err := conn.ExecContext(ctx, `UPDATE ss_est_curve_fits SET asymptote_identified = ?, asymptote_lo_bound = ?,
+				horizon_n = ?, nstar_beyond_horizon = ? WHERE run_id = ? AND capacity = ?`, id, lob, hor, beyond, cr.RunID, c.Capacity); err != nil {
+				return fmt.Errorf("store curve fits: %w", err)
+			}
+		}
 	}
 	return nil
 }

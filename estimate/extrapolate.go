@@ -929,8 +929,11 @@ func gapSentences(g *GapDiagnosis, unreachable bool) string {
 	switch {
 	case g.VarianceLimited:
 		fmt.Fprintf(&b, " Training error is %.0f%% of holdout error at the largest size: the model is variance-limited (overfitting)", 100*g.Ratio)
-		if len(vl) > 1 {
-			fmt.Fprintf(&b, ", as at every size where training error is under half the holdout error: %s", strings.Join(vl, ", "))
+		switch {
+		case len(vl) > 1 && len(vl) == len(g.BySize):
+			fmt.Fprintf(&b, ", as at every measured size (%.0f%% at n = %s)", 100*g.BySize[0].Ratio, sizeNum(g.BySize[0].N))
+		case len(vl) > 1:
+			fmt.Fprintf(&b, ", as where training error is under half the holdout error at %s", strings.Join(vl, ", "))
 		}
 		if shrink != "" {
 			b.WriteString("; " + shrink)

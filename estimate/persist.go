@@ -105,7 +105,32 @@ func SaveResult(ctx context.Context, conn *sql.Conn, runID int64, subject string
 	if err != nil {
 		return fmt.Errorf("save estimate: %w", err)
 	}
+	id, lob, hor, beyond := honestyValues(res)
+	if _, err := conn.ExecContext(ctx, `UPDATE ss_est_estimates SET asymptote_identified = ?, asymptote_lo_bound = ?, horizon_n = ?,
+		nstar_beyond_horizon = ? WHERE run_id = ? AND subject = ?`, id, lob, hor, beyond, runID, subject); err != nil {
+		return fmt.Errorf("save estimate: %w", err)
+	}
 	return nil
+}
+
+// honestyValues are the 0008 columns of a result: asymptote_identified, asymptote_lo_bound,
+// horizon_n, nstar_beyond_horizon (NULL where not applicable).
+func honestyValues(res *Result) (identified, loBound, horizon, beyond any) {
+	if res.Asymptote.Method != "none" {
+		identified, loBound = b01(!res.AsymptoteUnidentified), b01(res.AsymptoteLoAtBound)
+	}
+	horizon = dbFloat(res.HorizonN)
+	if res.NStar != nil {
+		beyond = b01(res.NStarBeyondHorizon)
+	}
+	return
+}
+
+func b01(v bool) int {
+	if v {
+		return 1
+	}
+	return 0
 }
 
 // SaveSampleSize stores each criterion of a closed-form result in ss_est_criteria.

@@ -58,12 +58,15 @@ func newEstimatePointsCommand(s stdio) *cli.Command {
    repeat       optional: which repeat (seeded subset) the measurement comes from
    train_error  optional: training error of the same fit (enables the overfitting diagnosis)
 
-Fits the curve families pow3 a + b·n^(−c), pow2 b·n^(−c), exp3 a + b·e^(−c·n) and
-log2 a + b·ln n by weighted Levenberg–Marquardt (weights from the spread across repeats),
-chooses the family that best predicts the largest sizes when refitted on the smaller ones
-(the backtest), and bootstraps it (over repeats, or residuals without repeats) for BCa
-intervals of the asymptote, of n* (the n that reaches --target) and of the error at --at.
-A target at or below the asymptote is reported as not reachable with this capacity.
+Fits the curve families pow3 a + b·n^(−c), pow2 b·n^(−c), exp3 a + b·e^(−c·n),
+log2 a + b·ln n and flat a by weighted Levenberg–Marquardt (weights from the spread across
+repeats), chooses the family that best predicts the largest sizes when refitted on the
+smaller ones (the backtest; flat wins when it is within the noise of the best), and
+bootstraps it (over repeats, or residuals without repeats) for BCa intervals of the
+asymptote, of n* (the n that reaches --target) and of the error at --at. A target at or
+below the asymptote (or a flat curve's level) is reported as not reachable with this
+capacity; an asymptote the data do not pin down is reported as not identified, and an n*
+beyond 1000× the largest size as not a meaningful extrapolation.
 
 With --db the points, fits and estimate are also stored (ss_est_points, ss_est_fits,
 ss_est_estimates), with an audit query that recomputes the pow3 fit with est_fit_pow3.
@@ -77,7 +80,7 @@ Examples:
 			&cli.StringFlag{Name: "points", Usage: "CSV `FILE` with columns n, error[, repeat][, train_error] (required)"},
 			&cli.Float64Flag{Name: "target", Usage: "target error `T`: report n*, the size that reaches it"},
 			&cli.Float64Flag{Name: "at", Usage: "planned training size `N`: report the error expected there"},
-			&cli.StringFlag{Name: "families", Value: "pow3,pow2,exp3,log2", Usage: "curve `FAMILIES` to try"},
+			&cli.StringFlag{Name: "families", Value: "pow3,pow2,exp3,log2,flat", Usage: "curve `FAMILIES` to try"},
 			&cli.IntFlag{Name: "bootstrap", Value: 1000, Usage: "bootstrap refits `B`"},
 			&cli.Float64Flag{Name: "level", Value: 0.95, Usage: "confidence `LEVEL` of the intervals"},
 			&cli.IntFlag{Name: "holdout", Usage: "largest sizes held out by the backtest `K` (default: a quarter, at least 1)"},
@@ -348,20 +351,51 @@ func pointsJSON(subject string, npts int, res *estimate.Result, o *estimate.Opti
 		"subject": subject, "points": npts, "sizes": res.Sizes, "mean_error": res.MeanErr,
 		"fits": fits, "best": res.Best.Family, "asymptote": res.Asymptote, "level": res.Level,
 		"bootstrap": res.Bootstrap, "seed": o.Seed, "verdict": res.Verdict, "caution": res.Caution,
+		"flat": res.Flat, "asymptote_identified": res.Asymptote.Method != "none" && !res.AsymptoteUnidentified,
+		"asymptote_lo_at_bound": res.AsymptoteLoAtBound, "horizon_n": res.HorizonN,
 	}
 	if res.NStar != nil {
 		out["target"] = o.Target
 		out["nstar"] = res.NStar
 		out["reachable"] = res.Reachable
+		out["nstar_beyond_horizon"] = res.NStarBeyondHorizon
 	}
 	if res.AtErr != nil {
 		out["at"] = o.At
 		out["at_error"] = res.AtErr
 	}
 	if g := res.Gap; g != nil {
-		out["gap"] = map[string]any{"train_holdout_ratio": ptsJF(g.Ratio), "gap": ptsJF(g.Gap), "exponent": ptsJF(g.Exponent), "variance_limited": g.VarianceLimited}
+		out["gap"] = map[string]any{"train_holdout_ratio": ptsJF(g.Ratio), "gap": ptsJF(g.Gap), "exponent": ptsJF(g.Exponent), "variance_limited": g.VarianceLimited, "by_size": gapBySizeJSON(g)}
 	}
 	return out
+}
+
+// gapBySizeJSON is the train–holdout gap at every size, for JSON output.
+func gapBySizeJSON(g *estimate.GapDiagnosis) []map[string]any {
+	out := []map[string]any{}
+	for _, s := range g.BySize {
+		out = append(out, map[string]any{"n": s.N, "train": ptsJF(s.Train), "holdout": ptsJF(s.Holdout), "ratio": ptsJF(s.Ratio), "variance_limited": s.VarianceLimited})
+	}
+	return out
+}
+
+// asymptoteCells prints the asymptote's value and interval: "not identified" instead of a
+// number the data do not support, and "0 (bound)" for a lower end that is the constraint.
+func asymptoteCells(res *estimate.Result) (value, lo, hi string) {
+	value = ptsG4(res.Asymptote.Est)
+	if res.AsymptoteUnidentified {
+		value = "not identified"
+	}
+	return value, estimate.AsymptoteLoString(res), ptsG4(res.Asymptote.Hi)
+}
+
+// nstarCells prints n* and its interval, "beyond 1000× the data" past the horizon.
+func nstarCells(res *estimate.Result) (value, lo, hi string) {
+	value = estimate.NStarString(res, res.NStar.Est)
+	if res.NStarBeyondHorizon {
+		value = fmt.Sprintf("beyond %g× the data (not a meaningful extrapolation)", float64(estimate.Horizon))
+	}
+	return value, estimate.NStarString(res, res.NStar.Lo), estimate.NStarString(res, res.NStar.Hi)
 }
 
 func ptsG4(v float64) string {
@@ -410,16 +444,34 @@ func printPoints(w io.Writer, npts int, res *estimate.Result, o *estimate.Option
 	lvl := fmt.Sprintf("%g%% interval", 100*res.Level)
 	e := &table{Header: []string{"estimate", "value", lvl, "method"}}
 	if res.Asymptote.Method != "none" {
-		e.add("asymptote", ptsG4(res.Asymptote.Est), ptsG4(res.Asymptote.Lo)+" to "+ptsG4(res.Asymptote.Hi), res.Asymptote.Method)
+		v, lo, hi := asymptoteCells(res)
+		name := "asymptote"
+		if res.Flat {
+			name = "level (flat curve)"
+		}
+		e.add(name, v, lo+" to "+hi, res.Asymptote.Method)
 	}
 	if res.NStar != nil {
-		e.add(fmt.Sprintf("n* for error %g", o.Target), estimate.SizeString(res.NStar.Est), estimate.SizeString(res.NStar.Lo)+" to "+estimate.SizeString(res.NStar.Hi), res.NStar.Method)
+		v, lo, hi := nstarCells(res)
+		e.add(fmt.Sprintf("n* for error %g", o.Target), v, lo+" to "+hi, res.NStar.Method)
 	}
 	if res.AtErr != nil {
 		e.add(fmt.Sprintf("error at n=%g", o.At), ptsG4(res.AtErr.Est), ptsG4(res.AtErr.Lo)+" to "+ptsG4(res.AtErr.Hi), res.AtErr.Method)
 	}
 	if g := res.Gap; g != nil {
 		e.add("train/holdout error", ptsG4(g.Ratio), "-", "at the largest size")
+		var vl []string
+		for _, s := range g.BySize {
+			if s.VarianceLimited {
+				vl = append(vl, fmt.Sprintf("%g (%s)", s.N, ptsG4(s.Ratio)))
+			}
+		}
+		switch {
+		case len(vl) > 1 && len(vl) == len(g.BySize):
+			e.add("variance-limited at n", "every size", "-", "train/holdout < 0.5")
+		case len(vl) > 0:
+			e.add("variance-limited at n", strings.Join(vl, ", "), "-", "train/holdout < 0.5")
+		}
 	}
 	if len(e.Rows) > 0 {
 		if err := e.write(w, "table"); err != nil {

@@ -269,6 +269,23 @@ type curveCapacity struct {
 	Variance    *bool              `json:"variance_limited,omitempty"`
 	ReachedAt   int                `json:"target_met_at_size,omitempty"`
 	Verdict     string             `json:"verdict"`
+	// Added: the honesty flags of the extrapolation (see estimate.Result).
+	Flat                bool         `json:"flat,omitempty"`
+	AsymptoteIdentified *bool        `json:"asymptote_identified,omitempty"`
+	AsymptoteLoAtBound  bool         `json:"asymptote_lo_at_bound,omitempty"`
+	HorizonN            float64      `json:"horizon_n,omitempty"`
+	NStarBeyondHorizon  *bool        `json:"nstar_beyond_horizon,omitempty"`
+	GapBySize           []curveGapAt `json:"gap_by_size,omitempty"`
+	res                 *estimate.Result
+}
+
+// curveGapAt is the train–holdout gap at one size (a JSON-safe estimate.GapAt).
+type curveGapAt struct {
+	N               float64  `json:"n"`
+	Train           float64  `json:"train_err_mean"`
+	Holdout         float64  `json:"holdout_err_mean"`
+	Ratio           *float64 `json:"ratio"`
+	VarianceLimited bool     `json:"variance_limited"`
 }
 
 func finite(v float64) *float64 {
@@ -332,6 +349,18 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 			if r.Gap != nil {
 				v := r.Gap.VarianceLimited
 				cc.Variance = &v
+				for _, g := range r.Gap.BySize {
+					cc.GapBySize = append(cc.GapBySize, curveGapAt{N: g.N, Train: g.Train, Holdout: g.Holdout, Ratio: finite(g.Ratio), VarianceLimited: g.VarianceLimited})
+				}
+			}
+			cc.res, cc.Flat, cc.AsymptoteLoAtBound, cc.HorizonN = r, r.Flat, r.AsymptoteLoAtBound, r.HorizonN
+			if a.Method != "none" {
+				id := !r.AsymptoteUnidentified
+				cc.AsymptoteIdentified = &id
+			}
+			if r.NStar != nil {
+				b := r.NStarBeyondHorizon
+				cc.NStarBeyondHorizon = &b
 			}
 		} else {
 			cc.Verdict = "no curve could be fitted: " + c.Err
@@ -511,6 +540,22 @@ func nstarCell(iv *estimate.Interval) string {
 	return fmt.Sprintf("%s [%s, %s]", g4(math.Ceil(iv.Est)), g4(math.Ceil(iv.Lo)), g4(math.Ceil(iv.Hi)))
 }
 
+// nstarCurveCell is a capacity's n* cell: "not reachable" for a target at or below the
+// asymptote (or a flat curve's level), "not settled" when the asymptote is not identified,
+// "beyond 1000× the data" past the horizon, else n* [interval].
+func nstarCurveCell(res *estimate.Result, target float64) string {
+	iv := res.NStar
+	switch {
+	case res.AsymptoteUnidentified && !res.Reachable:
+		return "not settled (asymptote not identified)"
+	case res.Asymptote.Method != "none" && target <= res.Asymptote.Est && math.IsInf(iv.Est, 1):
+		return "not reachable (at or below the asymptote)"
+	case res.NStarBeyondHorizon:
+		return fmt.Sprintf("beyond %g× the data (not a meaningful extrapolation)", float64(estimate.Horizon))
+	}
+	return fmt.Sprintf("%s [%s, %s]", estimate.NStarString(res, iv.Est), estimate.NStarString(res, iv.Lo), estimate.NStarString(res, iv.Hi))
+}
+
 func ivCell(iv *estimate.Interval) string {
 	if iv == nil {
 		return ""
@@ -567,9 +612,16 @@ func printCurve(w io.Writer, r *curveResult, format string) error {
 		if c.Asymptote == nil && c.Family != "" {
 			asy = "none"
 		}
+		if c.res != nil && c.Asymptote != nil {
+			v, lo, hi := asymptoteCells(c.res)
+			asy = fmt.Sprintf("%s [%s, %s]", v, lo, hi)
+		}
 		cells := []any{lab(c.Capacity), fam, bt, asy}
 		if r.Target > 0 {
 			ns := nstarCell(c.NStar)
+			if c.res != nil && c.res.NStar != nil {
+				ns = nstarCurveCell(c.res, r.Target)
+			}
 			if c.ReachedAt > 0 {
 				ns = fmt.Sprintf("met at n = %d (measured)", c.ReachedAt)
 			}
@@ -652,14 +704,20 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
 		}
 		fmt.Fprintf(w, "estimate, %s: today's best holdout %s is %.4g; target %s (3%% lower). ", sw.title, r.Metric, now, target)
-		var unreach []string
+		var unreach, unsettled []string
 		for _, c := range r.Capacities {
-			if c.Reachable != nil && !*c.Reachable {
+			switch {
+			case c.Reachable == nil || *c.Reachable:
+			case c.AsymptoteIdentified != nil && !*c.AsymptoteIdentified:
+				unsettled = append(unsettled, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
+			default:
 				unreach = append(unreach, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
 			}
 		}
 		lab := func(c float64) string { return estimate.CapacityLabel(r.Model, c) }
 		switch {
+		case r.BestNStar == nil && len(unsettled) > 0:
+			fmt.Fprintf(w, "no capacity tried is shown to reach %s %s; more capacity or better features might.", r.Metric, target)
 		case r.BestNStar == nil:
 			fmt.Fprintf(w, "no capacity tried reaches %s %s; more data will not get there, more capacity or better features might.", r.Metric, target)
 		case r.BestNStar.Method == "measured" || r.BestNStar.Est <= float64(r.TrainRows):
@@ -677,7 +735,10 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 			}
 		}
 		if len(unreach) > 0 && r.BestNStar != nil {
-			fmt.Fprintf(w, " With degree %s the curve levels off above the target: more data will not get there.", strings.Join(unreach, ", "))
+			fmt.Fprintf(w, " With degree %s the curve levels off above the target (or reaches it only beyond 1000× the data): more data will not get there.", strings.Join(unreach, ", "))
+		}
+		if len(unsettled) > 0 {
+			fmt.Fprintf(w, " With degree %s the asymptote is not identified by the measured sizes: whether more data would get there is not settled.", strings.Join(unsettled, ", "))
 		}
 		if n := len(r.BestAt); n > 0 {
 			fmt.Fprintf(w, " Best now (n = %d): %s.", r.BestAt[n-1].Size, lab(r.BestAt[n-1].Capacity))

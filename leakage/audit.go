@@ -3,13 +3,16 @@ package leakage
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"runtime"
 	"sort"
 	"strconv"
 	"strings"
+	"sync/atomic"
 	"time"
 )
 
@@ -115,6 +118,7 @@ type column struct {
 	rounded map[int][]string
 	// roundOnly > 0: only rounded[roundOnly] was read (num holds NaN).
 	roundOnly int
+	goRound   bool // roundOnly computed in Go by roundSignificant
 }
 
 func (c *column) numeric() bool { return c.SQLType == "INTEGER" || c.SQLType == "REAL" }
@@ -531,7 +535,13 @@ func (a *audit) loadRows() error {
 		}
 		col := &column{colInfo: c}
 		ds := distinctInts(append(append([]int{}, a.roundReal...), a.roundAll...))
-		if c.SQLType == "REAL" && !a.rawNeeded[c.Name] && len(ds) == 1 && ds[0] >= 1 && ds[0] <= 30 {
+		if c.SQLType == "REAL" && !a.rawNeeded[c.Name] && len(ds) == 1 && ds[0] >= 1 && ds[0] <= maxGoRoundDigits {
+			// Only the rounded form is used: read the value, round it in Go (SQLite's printf
+			// for the few values roundSignificant leaves to it).
+			col.roundOnly = ds[0]
+			col.goRound = true
+			fmt.Fprintf(&sel, ", t.%s", quoteIdent(c.Name))
+		} else if c.SQLType == "REAL" && !a.rawNeeded[c.Name] && len(ds) == 1 && ds[0] >= 1 && ds[0] <= 30 {
 			// Only the rounded form is used: read it alone (NULL stays NULL).
 			col.roundOnly = ds[0]
 			x := "t." + quoteIdent(c.Name)
@@ -550,7 +560,7 @@ func (a *audit) loadRows() error {
 		col *column
 		d   int
 	}
-	var rounds []rnd
+	var rounds, goRounds []rnd
 	for _, c := range cols {
 		if c.roundOnly > 0 {
 			c.rounded = map[int][]string{c.roundOnly: nil}
@@ -574,6 +584,10 @@ func (a *audit) loadRows() error {
 				continue
 			}
 			c.rounded[d] = nil
+			if c.SQLType == "REAL" && d <= maxGoRoundDigits {
+				goRounds = append(goRounds, rnd{c, d}) // from the value read, after the read
+				continue
+			}
 			rounds = append(rounds, rnd{c, d})
 			fmt.Fprintf(&sel, ", %s", RoundSignificantSQL("t."+quoteIdent(c.Name), d))
 		}
@@ -587,27 +601,36 @@ func (a *audit) loadRows() error {
 		fmt.Fprintf(&sel, ", %s", e)
 	}
 	fmt.Fprintf(&sel, ` FROM ss_split_rows r JOIN %s t ON t.ss_row = r.row_id WHERE r.split_name = ? AND r.side <> '' ORDER BY r.row_id`, quoteIdent(a.table))
-	rows, err := a.conn.QueryContext(a.ctx, sel.String(), a.split)
-	if err != nil {
-		return fmt.Errorf("read rows of split %s: %w", a.split, err)
-	}
-	defer rows.Close()
 	report, end := a.progress("audit: reading rows")
 	defer end()
-	vals := make([]any, first+len(cols)+len(rounds)+len(keyExprs))
-	ptrs := make([]any, len(vals))
-	for i := range vals {
-		ptrs[i] = &vals[i]
+	var fb []fallback // values roundSignificant leaves to SQLite
+	var buf []byte
+	a.rowID = make([]int64, 0, total)
+	a.side = make([]int, 0, total)
+	if a.useDigest {
+		a.digest = make([]int64, 0, total)
 	}
-	for rows.Next() {
-		if err := rows.Scan(ptrs...); err != nil {
-			return err
-		}
+	for _, c := range cols {
+		c.reserve(int(total))
+	}
+	for _, r := range rounds {
+		r.col.rounded[r.d] = make([]string, 0, total)
+	}
+	for _, e := range keyExprs {
+		a.sqlKeys[e] = make([]string, 0, total)
+	}
+	process := func(vals []driver.Value) error {
 		id, _ := vals[0].(int64)
-		sn := asString(vals[1])
-		si, ok := sideIdx[sn]
+		var si int
+		var ok bool
+		switch x := vals[1].(type) {
+		case string:
+			si, ok = sideIdx[x]
+		case []byte:
+			si, ok = sideIdx[string(x)]
+		}
 		if !ok {
-			return fmt.Errorf("split %s: row %d is on side %q, which ss_split_sides does not list", a.split, id, sn)
+			return fmt.Errorf("split %s: row %d is on side %q, which ss_split_sides does not list", a.split, id, asString(vals[1]))
 		}
 		a.rowID = append(a.rowID, id)
 		a.side = append(a.side, si)
@@ -618,10 +641,26 @@ func (a *audit) loadRows() error {
 		for i, c := range cols {
 			if c.roundOnly > 0 {
 				v := vals[first+i]
+				if b, isB := v.([]byte); isB {
+					v = string(b)
+				}
 				c.null = append(c.null, v == nil)
 				c.num = append(c.num, math.NaN())
 				c.ints = append(c.ints, 0)
-				c.rounded[c.roundOnly] = append(c.rounded[c.roundOnly], asString(v))
+				r := ""
+				if c.goRound && v != nil {
+					f, isF := v.(float64)
+					var done bool
+					if isF {
+						r, buf, done = roundSignificant(buf, f, c.roundOnly)
+					}
+					if !done {
+						fb = append(fb, fallback{c, c.roundOnly, len(c.null) - 1, v})
+					}
+				} else {
+					r = asString(v)
+				}
+				c.rounded[c.roundOnly] = append(c.rounded[c.roundOnly], r)
 				continue
 			}
 			c.add(vals[first+i])
@@ -635,8 +674,132 @@ func (a *audit) loadRows() error {
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)
 		}
+		return nil
 	}
-	return rows.Err()
+	err := a.readPipelined(sel.String(), process)
+	if err != nil {
+		return fmt.Errorf("read rows of split %s: %w", a.split, err)
+	}
+	for _, r := range goRounds {
+		c := r.col
+		out := make([]string, len(c.num))
+		for i, f := range c.num {
+			if c.null[i] {
+				continue
+			}
+			var done bool
+			if out[i], buf, done = roundSignificant(buf, f, r.d); !done {
+				fb = append(fb, fallback{c, r.d, i, f})
+			}
+		}
+		c.rounded[r.d] = out
+	}
+	return a.roundInSQL(fb)
+}
+
+// readPipelined runs the row query and calls process with each row, in order. With two or
+// more workers one goroutine reads through the driver while another processes batches of
+// rows (the two steps cost about the same); with one, rows are processed as they are read.
+func (a *audit) readPipelined(query string, process func([]driver.Value) error) error {
+	args := []any{a.split}
+	if a.workers < 2 {
+		return rawQuery(a.ctx, a.conn, query, args, process)
+	}
+	const per = 4096
+	type batch struct {
+		vals  []driver.Value
+		width int
+	}
+	full := make(chan *batch, 4)
+	free := make(chan *batch, 6)
+	var perr error
+	var stop atomic.Bool
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		for b := range full {
+			if perr == nil {
+				for i := 0; i+b.width <= len(b.vals); i += b.width {
+					if perr = process(b.vals[i : i+b.width]); perr != nil {
+						stop.Store(true)
+						break
+					}
+				}
+			}
+			clear(b.vals)
+			b.vals = b.vals[:0]
+			free <- b
+		}
+	}()
+	var cur *batch
+	err := rawQuery(a.ctx, a.conn, query, args, func(vals []driver.Value) error {
+		if cur == nil {
+			select {
+			case cur = <-free:
+			default:
+				cur = &batch{vals: make([]driver.Value, 0, per*len(vals)), width: len(vals)}
+			}
+		}
+		for _, v := range vals {
+			if b, ok := v.([]byte); ok {
+				v = string(b) // the driver may reuse the bytes
+			}
+			cur.vals = append(cur.vals, v)
+		}
+		if len(cur.vals) == cap(cur.vals) {
+			if stop.Load() {
+				return errPipeline
+			}
+			full <- cur
+			cur = nil
+		}
+		return nil
+	})
+	if cur != nil && len(cur.vals) > 0 {
+		full <- cur
+	}
+	close(full)
+	<-done
+	if perr != nil {
+		return perr
+	}
+	return err
+}
+
+var errPipeline = errors.New("row processing stopped")
+
+// fallback is a value whose rounded form SQLite's printf computes.
+type fallback struct {
+	col *column
+	d   int
+	row int
+	v   any
+}
+
+// roundInSQL has SQLite round the values roundSignificant could not be sure of.
+func (a *audit) roundInSQL(fb []fallback) error {
+	stmts := map[int]*sql.Stmt{}
+	defer func() {
+		for _, st := range stmts {
+			st.Close()
+		}
+	}()
+	for _, f := range fb {
+		st, ok := stmts[f.d]
+		if !ok {
+			var err error
+			if st, err = a.conn.PrepareContext(a.ctx, "SELECT "+RoundSignificantSQL("?", f.d)); err != nil {
+				return err
+			}
+			stmts[f.d] = st
+		}
+		var s string
+		if err := st.QueryRowContext(a.ctx, f.v).Scan(&s); err != nil {
+			return fmt.Errorf("round %v to %d significant digits: %w", f.v, f.d, err)
+		}
+		f.col.rounded[f.d][f.row] = s
+	}
+	return nil
 }
 
 func asString(v any) string {
@@ -649,6 +812,22 @@ func asString(v any) string {
 		return ""
 	}
 	return fmt.Sprint(v)
+}
+
+// reserve makes room for n rows in the storage the column's type uses.
+func (c *column) reserve(n int) {
+	c.null = make([]bool, 0, n)
+	switch {
+	case c.roundOnly > 0:
+		c.num = make([]float64, 0, n)
+		c.ints = make([]int64, 0, n)
+		c.rounded[c.roundOnly] = make([]string, 0, n)
+	case c.SQLType == "TEXT":
+		c.str = make([]string, 0, n)
+	default:
+		c.num = make([]float64, 0, n)
+		c.ints = make([]int64, 0, n)
+	}
 }
 
 func (c *column) add(v any) {

@@ -42,6 +42,14 @@ func TestMain(m *testing.M) {
 // values; 1% of rows planted as copies of earlier rows) split 80/20 at random, built once.
 func bigFixture(b *testing.B) string {
 	bigOnce.Do(func() {
+		// SPLITSMITH_BENCH_DB names a file to keep the fixture in between runs (profiling);
+		// an existing file there is used as it is.
+		if p := os.Getenv("SPLITSMITH_BENCH_DB"); p != "" {
+			if _, err := os.Stat(p); err == nil {
+				bigPath = p
+				return
+			}
+		}
 		r := rand.New(rand.NewPCG(1, 1))
 		f := &fixture{table: "big", split: "s", roles: map[string]string{"train": "train", "holdout": "holdout"}, order: []string{"train", "holdout"}, groups: []string{"segment"},
 			cols: []fixCol{{"segment", "TEXT", "TEXT"}, {"d1", "REAL", "REAL"}, {"d2", "REAL", "REAL"}, {"d3", "REAL", "REAL"}, {"d4", "REAL", "REAL"},
@@ -62,6 +70,10 @@ func bigFixture(b *testing.B) string {
 				side = "holdout"
 			}
 			f.sides = append(f.sides, side)
+		}
+		if p := os.Getenv("SPLITSMITH_BENCH_DB"); p != "" {
+			bigPath = f.createAt(b, p)
+			return
 		}
 		dir, err := os.MkdirTemp("", "leakage-bench-")
 		if err != nil {
@@ -85,6 +97,7 @@ func benchAudit(b *testing.B, params map[string]float64, checks ...string) {
 	traceHook = func(step string, d time.Duration) { b.Logf("%s: %v", step, d) }
 	defer func() { traceHook = nil }()
 	b.ResetTimer()
+	defer cpuMeter(b)()
 	for i := 0; i < b.N; i++ {
 		if _, err := runAudit(b, path, Options{Split: "s", Checks: checks, Params: params, Entity: entity}); err != nil {
 			b.Fatal(err)
@@ -125,6 +138,7 @@ func BenchmarkBaseline_GroupDigest1M(b *testing.B) {
 	}
 	defer db.Close()
 	b.ResetTimer()
+	defer cpuMeter(b)()
 	for i := 0; i < b.N; i++ {
 		var n int
 		if err := db.QueryRow(`SELECT count(*) FROM (SELECT t.ss_digest FROM ss_split_rows r JOIN big t ON t.ss_row = r.row_id WHERE r.split_name = 's' GROUP BY t.ss_digest HAVING count(DISTINCT r.side) > 1)`).Scan(&n); err != nil {

@@ -15,6 +15,14 @@ import (
 // with plain SQLite: lower(trim(collapse(x))), where collapse replaces ' ' by ' '||char(1),
 // removes char(1)||' ' and then char(1).
 func NormalizeValue(s string) string {
+	if normalized(s) {
+		return s
+	}
+	return normalizeFull(s)
+}
+
+// normalizeFull is NormalizeValue without the shortcut for values already normalised.
+func normalizeFull(s string) string {
 	s = strings.ReplaceAll(s, "\t", " ")
 	s = strings.ReplaceAll(s, "\n", " ")
 	s = strings.ReplaceAll(s, "\r", " ")
@@ -28,6 +36,32 @@ func NormalizeValue(s string) string {
 // NormalizeSQL is NormalizeValue as a stock SQLite expression over expr.
 func NormalizeSQL(expr string) string {
 	return fmt.Sprintf(`lower(trim(replace(replace(replace(replace(replace(replace(%s, char(9), ' '), char(10), ' '), char(13), ' '), ' ', ' ' || char(1)), char(1) || ' ', ''), char(1), '')))`, expr)
+}
+
+// normalized reports whether NormalizeValue leaves s as it is: no tab, line break, \x01 or
+// ASCII capital, no run of spaces and no space at either end (checked in one pass, no copy).
+func normalized(s string) bool {
+	if s == "" {
+		return true
+	}
+	if s[0] == ' ' || s[len(s)-1] == ' ' {
+		return false
+	}
+	prevSpace := false
+	for i := 0; i < len(s); i++ {
+		switch c := s[i]; {
+		case c == ' ':
+			if prevSpace {
+				return false
+			}
+			prevSpace = true
+			continue
+		case c == '\t' || c == '\n' || c == '\r' || c == 1 || (c >= 'A' && c <= 'Z'):
+			return false
+		}
+		prevSpace = false
+	}
+	return true
 }
 
 func asciiLower(s string) string {

@@ -1,0 +1,237 @@
+package leakage
+
+import (
+	"context"
+	"database/sql"
+	"database/sql/driver"
+	"errors"
+	"io"
+	"math"
+	"strconv"
+)
+
+// The bulk paths (reading a million rows, writing a million finding rows) go through the
+// driver's own interface inside conn.Raw: database/sql's per-row Scan and per-statement
+// argument conversion cost more than SQLite's own work there. The values are the ones
+// database/sql would hand over (int64, float64, string, []byte, nil). Inside fn nothing may use
+// conn itself (database/sql holds the connection's lock).
+
+// rawQuery runs query with args and calls fn with each row's values; vals is reused between
+// rows, and []byte values must be copied to be kept.
+func rawQuery(ctx context.Context, conn *sql.Conn, query string, args []any, fn func(vals []driver.Value) error) error {
+	return conn.Raw(func(dc any) error {
+		qc, ok := dc.(driver.QueryerContext)
+		if !ok {
+			return errors.New("driver connection cannot query with a context")
+		}
+		nargs := make([]driver.NamedValue, len(args))
+		for i, a := range args {
+			nargs[i] = driver.NamedValue{Ordinal: i + 1, Value: a}
+		}
+		rows, err := qc.QueryContext(ctx, query, nargs)
+		if err != nil {
+			return err
+		}
+		closed := false
+		defer func() {
+			if !closed {
+				rows.Close()
+			}
+		}()
+		vals := make([]driver.Value, len(rows.Columns()))
+		for {
+			if err := rows.Next(vals); err != nil {
+				if err == io.EOF {
+					break
+				}
+				return err
+			}
+			if err := fn(vals); err != nil {
+				return err
+			}
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		closed = true
+		return rows.Close()
+	})
+}
+
+// rawInserter writes rows of `width` values with multi-row INSERT statements of `per` rows
+// through the driver's statement interface (inside conn.Raw).
+type rawInserter struct {
+	ctx   context.Context
+	pc    driver.ConnPrepareContext
+	head  string
+	width int
+	per   int
+	args  []driver.NamedValue
+	full  driver.Stmt
+}
+
+func newRawInserter(ctx context.Context, dc any, head string, width, per int) (*rawInserter, error) {
+	pc, ok := dc.(driver.ConnPrepareContext)
+	if !ok {
+		return nil, errors.New("driver connection cannot prepare statements")
+	}
+	return &rawInserter{ctx: ctx, pc: pc, head: head, width: width, per: per, args: make([]driver.NamedValue, 0, width*per)}, nil
+}
+
+func (r *rawInserter) add(vals ...driver.Value) error {
+	for _, v := range vals {
+		r.args = append(r.args, driver.NamedValue{Ordinal: len(r.args) + 1, Value: v})
+	}
+	if len(r.args) < r.width*r.per {
+		return nil
+	}
+	if r.full == nil {
+		st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.width, r.per))
+		if err != nil {
+			return err
+		}
+		r.full = st
+	}
+	if err := rawExec(r.ctx, r.full, r.args); err != nil {
+		return err
+	}
+	r.args = r.args[:0]
+	return nil
+}
+
+// flush writes the remaining rows and closes the statements.
+func (r *rawInserter) flush() error {
+	if r.full != nil {
+		defer r.full.Close()
+	}
+	if len(r.args) == 0 {
+		return nil
+	}
+	st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.width, len(r.args)/r.width))
+	if err != nil {
+		return err
+	}
+	defer st.Close()
+	err = rawExec(r.ctx, st, r.args)
+	r.args = r.args[:0]
+	return err
+}
+
+func rawExec(ctx context.Context, st driver.Stmt, args []driver.NamedValue) error {
+	ex, ok := st.(driver.StmtExecContext)
+	if !ok {
+		return errors.New("driver statement cannot execute with a context")
+	}
+	_, err := ex.ExecContext(ctx, args)
+	return err
+}
+
+func multiRowSQL(head string, width, n int) string {
+	one := make([]byte, 0, 2*width+1)
+	one = append(one, '(')
+	for i := 0; i < width; i++ {
+		if i > 0 {
+			one = append(one, ',')
+		}
+		one = append(one, '?')
+	}
+	one = append(one, ')')
+	b := make([]byte, 0, len(head)+n*(len(one)+1))
+	b = append(b, head...)
+	for i := 0; i < n; i++ {
+		if i > 0 {
+			b = append(b, ',')
+		}
+		b = append(b, one...)
+	}
+	return string(b)
+}
+
+// maxGoRoundDigits is the most significant digits roundSignificant computes in Go.
+const maxGoRoundDigits = 11
+
+// roundSignificant is SQLite's printf('%.{digits-1}e', x) computed in Go, for digits 1..11,
+// or ok = false when it cannot be sure to agree with SQLite: SQLite rounds half up on its own
+// decimal approximation of x, Go rounds the exact binary value, so the two can differ only
+// when x lies within SQLite's approximation error of a rounding boundary. Values whose
+// decimal tail after the kept digits is within 10^-4 of a unit (at 9 digits; 10^-(17-digits-4) in
+// general, never under 10^-14 of x) of one half, zeros, infinities and values outside
+// 1e-290..1e290 are left to SQLite (the audit asks it for those few values).
+func roundSignificant(buf []byte, x float64, digits int) (string, []byte, bool) {
+	if digits < 1 || digits > maxGoRoundDigits || x == 0 || math.IsInf(x, 0) || math.IsNaN(x) {
+		return "", buf, false
+	}
+	if ax := math.Abs(x); ax < 1e-290 || ax > 1e290 {
+		return "", buf, false
+	}
+	// 17 significant digits, correctly rounded: d.dddddddddddddddde±XX
+	buf = strconv.AppendFloat(buf[:0], x, 'e', 16, 64)
+	s := buf
+	if s[0] == '-' {
+		s = s[1:]
+	}
+	// digits of s: s[0], s[2..17]
+	tail := 0 // the 17-digits digits after the kept ones, as an integer
+	for k := digits; k < 17; k++ {
+		tail = tail*10 + int(s[k+1]-'0')
+	}
+	l := 17 - digits
+	half := 5 * pow10i(l-1)
+	band := pow10i(max(l-4, 2))
+	if d := tail - half; d > -band && d < band {
+		return "", buf, false
+	}
+	// Round the 17 digits half up at the kept digits (not at a boundary, so this is the
+	// correctly rounded result), with the carry.
+	exp := 0
+	for _, c := range s[20:] {
+		exp = exp*10 + int(c-'0')
+	}
+	if s[19] == '-' {
+		exp = -exp
+	}
+	var dg [17]byte
+	dg[0] = s[0]
+	copy(dg[1:], s[2:18])
+	if tail > half {
+		k := digits - 1
+		for ; k >= 0 && dg[k] == '9'; k-- {
+			dg[k] = '0'
+		}
+		if k < 0 {
+			dg[0] = '1'
+			exp++
+		} else {
+			dg[k]++
+		}
+	}
+	out := make([]byte, 0, digits+8)
+	if x < 0 {
+		out = append(out, '-')
+	}
+	out = append(out, dg[0])
+	if digits > 1 {
+		out = append(out, '.')
+		out = append(out, dg[1:digits]...)
+	}
+	out = append(out, 'e')
+	if exp < 0 {
+		out = append(out, '-')
+		exp = -exp
+	} else {
+		out = append(out, '+')
+	}
+	if exp < 10 {
+		out = append(out, '0')
+	}
+	out = strconv.AppendInt(out, int64(exp), 10)
+	return string(out), buf, true
+}
+
+func pow10i(n int) int {
+	p := 1
+	for ; n > 0; n-- {
+		p *= 10
+	}
+	return p
+}

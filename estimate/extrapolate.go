@@ -101,6 +101,11 @@ type Result struct {
 	NStarBeyondHorizon bool
 }
 
+// MaxFlatDeltaAIC: the flat family is a candidate only when its AIC is within 10 of the best
+// family's (ΔAIC > 10: essentially no support, Burnham & Anderson 2002, Model Selection and
+// Multimodel Inference, §2.6; cited from memory).
+const MaxFlatDeltaAIC = 10
+
 // Horizon is how far beyond the largest measured size an n* is still reported as an
 // estimate (1000×; common practice, no source): a learning curve fitted over a decade or two
 // of sizes says nothing dependable three decades further on.
@@ -248,6 +253,8 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 	}
 	res.MeanErr = append(res.MeanErr, data.e...)
 	bestIdx := -1
+	fitted := make([]bool, len(fams))
+	minAIC := inf
 	for i, fam := range fams {
 		fit, err := fitFamily(fam, data, nil)
 		if err != nil {
@@ -255,7 +262,18 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 		}
 		fit.BacktestErr = backtest(fam, data, hold)
 		res.Fits = append(res.Fits, fit)
-		if err == nil && better(fit, res.Fits, bestIdx) {
+		fitted[i] = err == nil
+		if err == nil && !math.IsNaN(fit.AIC) {
+			minAIC = math.Min(minAIC, fit.AIC)
+		}
+	}
+	// The flat family competes only while the measurements support it: an AIC more than
+	// MaxFlatDeltaAIC above the best family's means the curve is still falling.
+	flatOK := func(i int) bool {
+		return fams[i].Name != "flat" || len(fams) == 1 || res.Fits[i].AIC <= minAIC+MaxFlatDeltaAIC
+	}
+	for i := range fams {
+		if fitted[i] && flatOK(i) && better(res.Fits[i], res.Fits, bestIdx) {
 			bestIdx = i
 		}
 	}
@@ -266,7 +284,7 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 	// falling family's (see flatTolerance), so noise that happens to slope does not buy a
 	// falling curve with an asymptote far below the data.
 	for i, f := range res.Fits {
-		if fams[i].Name == "flat" && i != bestIdx && !math.IsNaN(f.RSS) && !math.IsNaN(f.BacktestErr) && !math.IsNaN(res.Fits[bestIdx].BacktestErr) &&
+		if fams[i].Name == "flat" && i != bestIdx && fitted[i] && flatOK(i) && !math.IsNaN(f.BacktestErr) && !math.IsNaN(res.Fits[bestIdx].BacktestErr) &&
 			f.BacktestErr <= res.Fits[bestIdx].BacktestErr+flatTolerance(groups, data, hold, mode, res.Fits[bestIdx], fams[bestIdx]) {
 			bestIdx = i
 		}
@@ -395,7 +413,12 @@ func identify(res *Result, fam *Family, boot [][3]float64) {
 			at++
 		}
 	}
-	res.AsymptoteLoAtBound = len(boot) > 0 && at/float64(len(boot)) >= (1-res.Level)/2 || a.Lo <= fam.Lower[0]+eps
+	if len(boot) > 0 && at/float64(len(boot)) >= (1-res.Level)/2 {
+		// the draws pile up at the bound: the interval's lower end is the constraint
+		a.Lo = fam.Lower[0]
+		res.Asymptote.Lo = a.Lo
+	}
+	res.AsymptoteLoAtBound = a.Lo <= fam.Lower[0]+eps
 	remaining := level - a.Est
 	switch {
 	case math.IsNaN(a.Lo) || math.IsNaN(a.Hi) || math.IsInf(a.Hi, 0):
@@ -990,8 +1013,28 @@ func AsymptoteLoString(r *Result) string {
 // "beyond 1000× the data" past the result's horizon.
 func NStarString(r *Result, v float64) string { return nstarPhrase(r, v) }
 
+// NStarSummary is the n* cell of a table: "not reachable" for a target at or below the
+// asymptote (or a flat curve's level), "not settled" when the asymptote is not identified,
+// "beyond 1000× the data" past the horizon, else n* [lo, hi].
+func NStarSummary(r *Result, target float64) string {
+	iv := r.NStar
+	switch {
+	case iv == nil:
+		return ""
+	case r.AsymptoteUnidentified && !r.Reachable:
+		return "not settled (asymptote not identified)"
+	case r.Flat && target < r.Asymptote.Est:
+		return "not reachable (below the flat level)"
+	case r.Asymptote.Method != "none" && target <= r.Asymptote.Est && math.IsInf(iv.Est, 1):
+		return "not reachable (at or below the asymptote)"
+	case r.NStarBeyondHorizon:
+		return fmt.Sprintf("beyond %g× the data (not a meaningful extrapolation)", float64(Horizon))
+	}
+	return fmt.Sprintf("%s [%s, %s]", nstarPhrase(r, iv.Est), nstarPhrase(r, iv.Lo), nstarPhrase(r, iv.Hi))
+}
+
 func nstarPhrase(r *Result, v float64) string {
-	if r != nil && r.HorizonN > 0 && v > r.HorizonN && !math.IsNaN(v) {
+	if r != nil && r.HorizonN > 0 && v > r.HorizonN && !math.IsNaN(v) && !math.IsInf(v, 1) {
 		return fmt.Sprintf("beyond %g× the data", float64(Horizon))
 	}
 	return sizeNum(v)

@@ -453,7 +453,11 @@ func printPoints(w io.Writer, npts int, res *estimate.Result, o *estimate.Option
 	}
 	if res.NStar != nil {
 		v, lo, hi := nstarCells(res)
-		e.add(fmt.Sprintf("n* for error %g", o.Target), v, lo+" to "+hi, res.NStar.Method)
+		ivs := lo + " to " + hi
+		if sum := estimate.NStarSummary(res, o.Target); strings.HasPrefix(sum, "not ") {
+			v, ivs = sum, "-"
+		}
+		e.add(fmt.Sprintf("n* for error %g", o.Target), v, ivs, res.NStar.Method)
 	}
 	if res.AtErr != nil {
 		e.add(fmt.Sprintf("error at n=%g", o.At), ptsG4(res.AtErr.Est), ptsG4(res.AtErr.Lo)+" to "+ptsG4(res.AtErr.Hi), res.AtErr.Method)

@@ -540,20 +540,8 @@ func nstarCell(iv *estimate.Interval) string {
 	return fmt.Sprintf("%s [%s, %s]", g4(math.Ceil(iv.Est)), g4(math.Ceil(iv.Lo)), g4(math.Ceil(iv.Hi)))
 }
 
-// nstarCurveCell is a capacity's n* cell: "not reachable" for a target at or below the
-// asymptote (or a flat curve's level), "not settled" when the asymptote is not identified,
-// "beyond 1000× the data" past the horizon, else n* [interval].
 func nstarCurveCell(res *estimate.Result, target float64) string {
-	iv := res.NStar
-	switch {
-	case res.AsymptoteUnidentified && !res.Reachable:
-		return "not settled (asymptote not identified)"
-	case res.Asymptote.Method != "none" && target <= res.Asymptote.Est && math.IsInf(iv.Est, 1):
-		return "not reachable (at or below the asymptote)"
-	case res.NStarBeyondHorizon:
-		return fmt.Sprintf("beyond %g× the data (not a meaningful extrapolation)", float64(estimate.Horizon))
-	}
-	return fmt.Sprintf("%s [%s, %s]", estimate.NStarString(res, iv.Est), estimate.NStarString(res, iv.Lo), estimate.NStarString(res, iv.Hi))
+	return estimate.NStarSummary(res, target)
 }
 
 func ivCell(iv *estimate.Interval) string {

@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"math"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -921,10 +922,14 @@ func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`
 
 // add records a finding of the current check, ordering its rows per side.
 func (a *audit) add(f Finding) {
-	sort.Slice(f.Sides, func(i, j int) bool { return a.sidePos(f.Sides[i].Side) < a.sidePos(f.Sides[j].Side) })
+	if !slices.IsSortedFunc(f.Sides, func(x, y SideRows) int { return a.sidePos(x.Side) - a.sidePos(y.Side) }) {
+		sort.Slice(f.Sides, func(i, j int) bool { return a.sidePos(f.Sides[i].Side) < a.sidePos(f.Sides[j].Side) })
+	}
 	f.anchor = math.MaxInt64
 	for k := range f.Sides {
-		sort.Slice(f.Sides[k].Rows, func(i, j int) bool { return f.Sides[k].Rows[i] < f.Sides[k].Rows[j] })
+		if !slices.IsSorted(f.Sides[k].Rows) {
+			slices.Sort(f.Sides[k].Rows)
+		}
 		if len(f.Sides[k].Rows) > 0 && f.Sides[k].Rows[0] < f.anchor {
 			f.anchor = f.Sides[k].Rows[0]
 		}
@@ -945,17 +950,30 @@ func (a *audit) sidePos(name string) int {
 	return len(a.sides)
 }
 
-// groupSides turns row indexes into per-side row ids.
+// groupSides turns row indexes into per-side row ids (sides in split order, rows in the
+// order of idx).
 func (a *audit) groupSides(idx []int32) []SideRows {
-	per := map[int][]int64{}
-	for _, i := range idx {
-		per[a.side[i]] = append(per[a.side[i]], a.rowID[i])
+	var one [8]int
+	count := one[:0]
+	if len(a.sides) > len(one) {
+		count = make([]int, len(a.sides))
+	} else {
+		count = one[:len(a.sides)]
 	}
+	for _, i := range idx {
+		count[a.side[i]]++
+	}
+	pos := make([]int, len(a.sides)) // index into out, per side
 	var out []SideRows
-	for s := range a.sides {
-		if r, ok := per[s]; ok {
-			out = append(out, SideRows{Side: a.sides[s].Name, Rows: r})
+	for s, n := range count {
+		if n > 0 {
+			pos[s] = len(out)
+			out = append(out, SideRows{Side: a.sides[s].Name, Rows: make([]int64, 0, n)})
 		}
+	}
+	for _, i := range idx {
+		k := pos[a.side[i]]
+		out[k].Rows = append(out[k].Rows, a.rowID[i])
 	}
 	return out
 }
@@ -965,55 +983,75 @@ func (a *audit) addQuery(q Query) {
 }
 
 func (a *audit) write(qa QueryAdder, rep *Report) error {
-	// Order within a check: as the check emitted (each check sorts its own findings).
-	fb := &batch{a: a, head: `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES`, width: 14, rows: 64}
-	rb := &batch{a: a, head: `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES`, width: 4, rows: 256}
-	for i, f := range rep.Findings {
-		seq := i + 1
-		var sideA, sideB any
-		var nA, nB int
-		if f.SideA != "" {
-			sideA, nA = f.SideA, f.NA
-		}
-		if f.SideB != "" {
-			sideB, nB = f.SideB, f.NB
-		}
-		if len(f.Sides) > 0 {
-			sideA, nA = f.Sides[0].Side, len(f.Sides[0].Rows)
-		}
-		if len(f.Sides) > 1 {
-			sideB, nB = f.Sides[1].Side, len(f.Sides[1].Rows)
-		}
-		var score any
-		if !math.IsNaN(f.Score) && !math.IsInf(f.Score, 0) {
-			score = f.Score
-		}
-		var item, query any
-		if f.HasItem {
-			item = f.Item
-		}
-		if f.Query != "" {
-			query = f.Query
-		}
-		ev, err := json.Marshal(f.Evidence)
+	// Order within a check: as the check emitted (each check sorts its own findings). Findings
+	// and their rows go through the driver's statements (a million finding rows is common).
+	// A page cache big enough for them keeps SQLite from spilling dirty pages, and syncing its
+	// journal, in the middle of the transaction; the connection's setting is restored after.
+	var cache int64
+	if err := a.conn.QueryRowContext(a.ctx, `PRAGMA cache_size`).Scan(&cache); err != nil {
+		return err
+	}
+	if _, err := a.conn.ExecContext(a.ctx, `PRAGMA cache_size = -262144`); err != nil {
+		return err
+	}
+	defer a.conn.ExecContext(a.ctx, fmt.Sprintf(`PRAGMA cache_size = %d`, cache))
+	err := a.conn.Raw(func(dc any) error {
+		fb, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES`, 14, 64)
 		if err != nil {
 			return err
 		}
-		if err := fb.add(a.auditID, seq, f.Check, string(f.Severity), f.Subject, item, sideA, nA, sideB, nB, score, f.Message, string(ev), query); err != nil {
+		rb, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES`, 4, 200)
+		if err != nil {
 			return err
 		}
-		for _, s := range f.Sides {
-			for _, r := range s.Rows {
-				if err := rb.add(a.auditID, seq, s.Side, r); err != nil {
-					return err
+		for i, f := range rep.Findings {
+			seq := int64(i + 1)
+			var sideA, sideB driver.Value
+			var nA, nB int64
+			if f.SideA != "" {
+				sideA, nA = f.SideA, int64(f.NA)
+			}
+			if f.SideB != "" {
+				sideB, nB = f.SideB, int64(f.NB)
+			}
+			if len(f.Sides) > 0 {
+				sideA, nA = f.Sides[0].Side, int64(len(f.Sides[0].Rows))
+			}
+			if len(f.Sides) > 1 {
+				sideB, nB = f.Sides[1].Side, int64(len(f.Sides[1].Rows))
+			}
+			var score driver.Value
+			if !math.IsNaN(f.Score) && !math.IsInf(f.Score, 0) {
+				score = f.Score
+			}
+			var item, query driver.Value
+			if f.HasItem {
+				item = f.Item
+			}
+			if f.Query != "" {
+				query = f.Query
+			}
+			ev, err := json.Marshal(f.Evidence)
+			if err != nil {
+				return err
+			}
+			if err := fb.add(a.auditID, seq, f.Check, string(f.Severity), f.Subject, item, sideA, nA, sideB, nB, score, f.Message, string(ev), query); err != nil {
+				return err
+			}
+			for _, s := range f.Sides {
+				for _, r := range s.Rows {
+					if err := rb.add(a.auditID, seq, s.Side, r); err != nil {
+						return err
+					}
 				}
 			}
 		}
-	}
-	if err := fb.flush(); err != nil {
-		return err
-	}
-	if err := rb.flush(); err != nil {
+		if err := fb.flush(); err != nil {
+			return err
+		}
+		return rb.flush()
+	})
+	if err != nil {
 		return err
 	}
 	opts, _ := json.Marshal(rep.Resolved)
@@ -1031,51 +1069,6 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 		}
 	}
 	return nil
-}
-
-// batch inserts rows several at a time: one statement per `rows` rows.
-type batch struct {
-	a     *audit
-	head  string
-	width int
-	rows  int
-	args  []any
-	stmt  *sql.Stmt
-}
-
-func (b *batch) add(vals ...any) error {
-	b.args = append(b.args, vals...)
-	if len(b.args) == b.width*b.rows {
-		if b.stmt == nil {
-			st, err := b.a.conn.PrepareContext(b.a.ctx, b.sql(b.rows))
-			if err != nil {
-				return err
-			}
-			b.stmt = st
-		}
-		if _, err := b.stmt.ExecContext(b.a.ctx, b.args...); err != nil {
-			return err
-		}
-		b.args = b.args[:0]
-	}
-	return nil
-}
-
-func (b *batch) sql(n int) string {
-	one := "(" + strings.TrimSuffix(strings.Repeat("?,", b.width), ",") + ")"
-	return b.head + strings.TrimSuffix(strings.Repeat(one+",", n), ",")
-}
-
-func (b *batch) flush() error {
-	if b.stmt != nil {
-		defer b.stmt.Close()
-	}
-	if len(b.args) == 0 {
-		return nil
-	}
-	_, err := b.a.conn.ExecContext(b.a.ctx, b.sql(len(b.args)/b.width), b.args...)
-	b.args = b.args[:0]
-	return err
 }
 
 func distinctInts(x []int) []int {

@@ -56,11 +56,23 @@ func sideSummary(s []SideRows) string {
 }
 
 func (a *audit) distinctSides(g []int32) int {
-	seen := map[int]bool{}
-	for _, i := range g {
-		seen[a.side[i]] = true
+	if len(g) == 0 {
+		return 0
 	}
-	return len(seen)
+	first, n := a.side[g[0]], 1
+	var seen map[int]bool
+	for _, i := range g[1:] {
+		if s := a.side[i]; s != first {
+			if seen == nil {
+				seen = map[int]bool{first: true}
+			}
+			if !seen[s] {
+				seen[s] = true
+				n++
+			}
+		}
+	}
+	return n
 }
 
 func runExactDuplicate(a *audit) error {

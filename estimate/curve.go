@@ -800,6 +800,11 @@ func sweepVerdict(r *SweepReport) string {
 				} else {
 					fmt.Fprintf(&b, " That is about %s more rows than the training side has.", fmtN(iv.Est-float64(r.TrainRows)))
 				}
+				for _, c := range r.Capacities {
+					if c.Capacity == r.BestCapacity && c.Result != nil && c.Result.AsymptoteUnidentified {
+						fmt.Fprintf(&b, " The asymptote of %s is not identified by the measured sizes, so this n* assumes the measured trend goes on.", lab(c.Capacity))
+					}
+				}
 			}
 		}
 		var unreach, noisy, unsettled, far []string

@@ -911,6 +911,9 @@ func verdict(r *Result, o Options) string {
 			fmt.Fprintf(&b, " The fitted curve already reaches the target %s within the measured sizes, at n* ≈ %s (%s interval %s to %s).", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), nstarPhrase(r, r.NStar.Hi))
 		default:
 			fmt.Fprintf(&b, " The curve reaches the target %s at n* ≈ %s (%s interval %s to %s), %.2g× the largest measured size.", num(T), sizeNum(r.NStar.Est), pct, sizeNum(r.NStar.Lo), nstarPhrase(r, r.NStar.Hi), r.NStar.Est/largest)
+			if r.AsymptoteUnidentified {
+				b.WriteString(" With the asymptote not identified, this n* assumes the measured trend goes on.")
+			}
 			if r.NStar.Est > 10*largest {
 				b.WriteString(" That is far beyond the measured sizes: treat it as a rough guide.")
 			}
@@ -993,7 +996,7 @@ func fittedAlone(r *Result) string {
 	case math.IsInf(v, 1) && !(r.HorizonN > 0 && !r.NStarBeyondHorizon):
 		return "the fitted curve alone does not reach it within any meaningful extrapolation"
 	case math.IsInf(v, 1):
-		return "the fitted curve alone levels off above it"
+		return fmt.Sprintf("the fitted curve alone levels off at %s, above it", num(r.Asymptote.Est))
 	case v > r.HorizonN:
 		return fmt.Sprintf("the fitted curve alone puts n* beyond %g× the data, not a dependable figure", float64(Horizon))
 	}

@@ -692,12 +692,14 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 			return fmt.Errorf("demo estimate %s: %w", sw.label, err)
 		}
 		fmt.Fprintf(w, "estimate, %s: today's best holdout %s is %.4g; target %s (3%% lower). ", sw.title, r.Metric, now, target)
-		var unreach, unsettled []string
+		var unreach, unsettled, far []string
 		for _, c := range r.Capacities {
 			switch {
 			case c.Reachable == nil || *c.Reachable:
 			case c.AsymptoteIdentified != nil && !*c.AsymptoteIdentified:
 				unsettled = append(unsettled, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
+			case c.NStarBeyondHorizon != nil && *c.NStarBeyondHorizon:
+				far = append(far, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
 			default:
 				unreach = append(unreach, strconv.FormatFloat(c.Capacity, 'g', -1, 64))
 			}
@@ -721,9 +723,17 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 			if ns.Est > 10*float64(r.TrainRows) {
 				fmt.Fprint(w, " That is far beyond the measured sizes: a rough guide only.")
 			}
+			for _, c := range r.Capacities {
+				if c.Capacity == *r.BestCapacity && c.AsymptoteIdentified != nil && !*c.AsymptoteIdentified {
+					fmt.Fprint(w, " Its asymptote is not identified by the measured sizes, so this assumes the measured trend goes on.")
+				}
+			}
 		}
 		if len(unreach) > 0 && r.BestNStar != nil {
-			fmt.Fprintf(w, " With degree %s the curve levels off above the target (or reaches it only beyond 1000× the data): more data will not get there.", strings.Join(unreach, ", "))
+			fmt.Fprintf(w, " With degree %s the curve levels off above the target: more data will not get there.", strings.Join(unreach, ", "))
+		}
+		if len(far) > 0 {
+			fmt.Fprintf(w, " With degree %s it would take more than 1000× the data in hand (not a meaningful extrapolation).", strings.Join(far, ", "))
 		}
 		if len(unsettled) > 0 {
 			fmt.Fprintf(w, " With degree %s the asymptote is not identified by the measured sizes: whether more data would get there is not settled.", strings.Join(unsettled, ", "))

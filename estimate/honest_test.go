@@ -178,3 +178,41 @@ func TestGapDiagnosis_BySize(t *testing.T) {
 		t.Errorf("verdict %q", res.Verdict)
 	}
 }
+
+// TestSummarise_FlatAndUnidentified: a sweep with one flat capacity (level 3.0) and one whose
+// curve falls too slowly to show its asymptote (the unidentified curve above): no capacity is
+// shown to reach the target, the flat one is out of reach, the other one is "not settled".
+func TestSummarise_FlatAndUnidentified(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 5))
+	var pts []CurvePoint
+	for _, n := range []int{300, 600, 1200, 2400, 6000} {
+		for r := 1; r <= 5; r++ {
+			pts = append(pts, CurvePoint{Capacity: 1, Size: n, Repeat: r, TrainErr: 2.9, HoldoutErr: 3 + 0.03*rng.NormFloat64()})
+		}
+	}
+	for _, p := range pow3Points(rand.New(rand.NewPCG(3, 5)), []float64{300, 600, 1200, 2400, 6000}, 5, 1, 2.5, 0.08, 0.03) {
+		pts = append(pts, CurvePoint{Capacity: 2, Size: int(p.N), Repeat: p.Repeat + 1, TrainErr: 0.9 * p.Err, HoldoutErr: p.Err})
+	}
+	rep, err := Summarise(pts, "ridge", "rmse", 6000, &Options{Families: []string{"pow3", "flat"}, Target: 1.8, Bootstrap: 200, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	c1, c2 := rep.Capacities[0].Result, rep.Capacities[1].Result
+	if c1.Best.Family != "flat" || c1.Reachable || c2.Best.Family != "pow3" || !c2.AsymptoteUnidentified || c2.Reachable {
+		t.Fatalf("capacity 1: %s reachable %v; capacity 2: %s unidentified %v reachable %v", c1.Best.Family, c1.Reachable, c2.Best.Family, c2.AsymptoteUnidentified, c2.Reachable)
+	}
+	if rep.BestNStar != nil {
+		t.Errorf("best n* %+v, want none", *rep.BestNStar)
+	}
+	for _, want := range []string{"No capacity tried is shown to reach the target rmse 1.8", "with degree 2 the asymptote is not identified", Caution} {
+		if !strings.Contains(rep.Verdict, want) {
+			t.Errorf("sweep verdict %q lacks %q", rep.Verdict, want)
+		}
+	}
+	if got := NStarSummary(c1, 1.8); got != "not reachable (below the flat level)" {
+		t.Errorf("flat n* cell %q", got)
+	}
+	if got := NStarSummary(c2, 1.8); got != "not settled (asymptote not identified)" {
+		t.Errorf("unidentified n* cell %q", got)
+	}
+}

@@ -18,8 +18,17 @@
 // asymptote, for n* (the n at which the curve reaches Options.Target) and for the error
 // at a planned n (Options.At). A target at or below the asymptote (or inside its interval)
 // is reported as not reachable with this capacity: more data will not get there, more
-// capacity might. Optional training-error points (Options.Train) let it diagnose a
-// variance-limited (overfitting) model and how the train–holdout gap shrinks with n.
+// capacity might. Optional training-error points (Options.Train) let it diagnose, size by
+// size, where the model is variance-limited (overfitting) and how the train–holdout gap
+// shrinks with n.
+//
+// Honesty rules: the flat family (a constant) competes while its AIC is within 10 of the
+// best family's, and wins when its backtest is within twice the relative standard error of
+// the held-out means of the best one (Result.Flat); an asymptote whose interval spans more
+// than a quarter of [0, level] or that lies far below the data is reported as not identified
+// (Result.AsymptoteUnidentified), a lower end that is the bound a ≥ 0 as such
+// (AsymptoteLoAtBound); an n* beyond Horizon (1000) × the largest size is flagged
+// (NStarBeyondHorizon; the number is kept) and counts as not reachable.
 //
 // Families (err as a function of the training size n; a ≥ 0 is the asymptote, c > 0):
 //
@@ -27,11 +36,12 @@
 //	pow2  b·n^(−c)          n* = (b/T)^(1/c)          (asymptote 0)
 //	exp3  a + b·e^(−c·n)    n* = ln(b/(T−a))/c
 //	log2  a + b·ln n        n* = e^((T−a)/b), b < 0   (no asymptote; reported as 0)
+//	flat  a                 never below a             (the error no longer falls)
 //
 // Predict evaluates a fitted family; n* comes from each family's closed form, or from
 // NStarNumeric (bracketing and bisection on ln n) for a family without one. FitFamily is the
 // exact fit Extrapolate reports for one family. SaveResult, SavePoints and SaveSampleSize
-// write ss_est_estimates, ss_est_fits, ss_est_points and ss_est_criteria (migration 0005)
+// write ss_est_estimates, ss_est_fits, ss_est_points and ss_est_criteria (migrations 0005, 0008)
 // inside the caller's transaction; PlotPoints draws a result for estimate points --plot.
 //
 // # Least squares

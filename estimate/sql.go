@@ -34,7 +34,7 @@ func SQL() sqlfn.Set {
 		},
 		{
 			Name: "est_predict", NArgs: 3, Deterministic: true, Args: "family, n, params_json",
-			Doc:      "a fitted curve family (pow3, pow2, exp3, log2) at n, parameters as in ss_est_fits.params_json",
+			Doc:      "a fitted curve family (pow3, pow2, exp3, log2, flat) at n, parameters as in ss_est_fits.params_json",
 			Examples: []sqlfn.Example{{SQL: `SELECT est_predict('pow3', 64, '{"a":0.25,"b":2,"c":0.5}')`, Want: "0.5"}},
 			Scalar: func(args []driver.Value) (driver.Value, error) {
 				if args[0] == nil || args[1] == nil || args[2] == nil {

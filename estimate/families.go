@@ -150,7 +150,7 @@ var log2Family = &Family{
 // and its level (the asymptote) gets an honest interval instead of an extrapolated one.
 var flatFamily = &Family{
 	Name:      "flat",
-	Doc:       "flat a (the error no longer falls with n)",
+	Doc:       "constant a: the error no longer falls with n",
 	Params:    []string{"a"},
 	F:         func(n float64, p []float64) float64 { return p[0] },
 	Grad:      func(n float64, p, g []float64) { g[0] = 1 },

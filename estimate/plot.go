@@ -191,7 +191,8 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 			p.Add(l)
 		}
 		as := cr.Result.Asymptote
-		if as.Method != "none" && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
+		// an asymptote the data do not identify gets no band: it would look like a finding
+		if as.Method != "none" && !cr.Result.AsymptoteUnidentified && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
 			lo := math.Max(as.Lo, yMin/2)
 			if lo < as.Hi {
 				band, err := plotter.NewPolygon(plotter.XYs{{X: nMin, Y: lo}, {X: xEnd, Y: lo}, {X: xEnd, Y: as.Hi}, {X: nMin, Y: as.Hi}})

@@ -54,9 +54,11 @@ func TestExtrapolate_FlatCurve(t *testing.T) {
 			t.Errorf("seed %d: verdict %q", s, res.Verdict)
 		}
 	}
-	// The backtest may prefer a falling family when noise happens to slope down.
-	if flatWins < trials*3/4 {
-		t.Errorf("flat chosen in %d of %d flat curves, want ≥ 75%%", flatWins, trials)
+	// The backtest may prefer a falling family when noise happens to slope down (seen: 20 of 20
+	// flat with these seeds).
+	t.Logf("flat chosen %d/%d, level covered %d", flatWins, trials, covered)
+	if flatWins < trials*9/10 {
+		t.Errorf("flat chosen in %d of %d flat curves, want ≥ 90%%", flatWins, trials)
 	}
 	if covered < flatWins*8/10 {
 		t.Errorf("level covered in %d of %d flat fits", covered, flatWins)
@@ -92,8 +94,9 @@ func TestExtrapolate_KnownPow3AllFamilies(t *testing.T) {
 			hits++
 		}
 	}
-	if pow3 < trials*3/4 {
-		t.Errorf("pow3 chosen in %d of %d pow3 curves, want ≥ 75%%", pow3, trials)
+	t.Logf("pow3 chosen %d/%d, n* covered %d", pow3, trials, hits)
+	if pow3 < trials*17/20 {
+		t.Errorf("pow3 chosen in %d of %d pow3 curves, want ≥ 85%%", pow3, trials)
 	}
 	if hits < pow3*8/10 {
 		t.Errorf("true n* inside the interval in %d of %d pow3 fits", hits, pow3)

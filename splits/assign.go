@@ -3,6 +3,7 @@ package splits
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"fmt"
 	"math"
 	"path"
@@ -139,32 +140,37 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 	}
 	d := &data{}
 	d.numeric = timeCol.Logical == "INTEGER" || timeCol.Logical == "REAL"
-	rows, err := conn.QueryContext(ctx, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` WHERE `+where+` ORDER BY ss_row`, wargs...)
-	if err != nil {
-		return nil, fmt.Errorf("read %s: %w", t.Name, err)
-	}
-	defer rows.Close()
-	vals := make([]any, len(cols))
-	ptrs := make([]any, len(cols))
-	for i := range vals {
-		ptrs[i] = &vals[i]
-	}
-	var id, dg int64 // ss_row and ss_digest scan straight into integers
-	ptrs[0], ptrs[1] = &id, &dg
 	h := newHasher(spec.Seed)
 	var keyBuf []byte
 	strataIdx := map[string]int32{}
 	uf := newUnionFind(len(groupIdx))
 	var badTime, badLE, nullGroup []int64
-	for rows.Next() {
-		if err := rows.Scan(ptrs...); err != nil {
-			return nil, fmt.Errorf("read %s: %w", t.Name, err)
+	gv := make([]any, len(groupIdx))
+	// The default key (the content digest) is hashed on another goroutine while rows are
+	// still being read: chunks of digests go to hashDigests as they fill. Each u[i] is a
+	// pure function of digest[i], so the result does not depend on scheduling.
+	hashDefault := len(keyIdx) == 0
+	var hj *hashJobs
+	if hashDefault {
+		d.digest = make([]int64, 0, total)
+		d.u = make([]float64, total)
+		hj = startHashJobs(spec.Seed)
+		defer hj.stop()
+	}
+	sent := 0
+	query := `SELECT ` + strings.Join(cols, ", ") + ` FROM ` + quoteIdent(t.Name) + ` WHERE ` + where + ` ORDER BY ss_row`
+	err = rawQuery(ctx, conn, query, wargs, func(vals []driver.Value) error {
+		id, err := asInt64(vals[0], "ss_row")
+		if err != nil {
+			return err
+		}
+		dg, err := asInt64(vals[1], "ss_digest")
+		if err != nil {
+			return err
 		}
 		d.rowID = append(d.rowID, id)
 		d.digest = append(d.digest, dg)
-		if len(keyIdx) == 0 {
-			d.u = append(d.u, h.uDigest(dg))
-		} else {
+		if !hashDefault {
 			keyBuf = keyBuf[:0]
 			for _, j := range keyIdx {
 				keyBuf, _ = AppendValue(keyBuf, normalize(vals[j]))
@@ -182,7 +188,6 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			d.stratum = append(d.stratum, si)
 		}
 		if len(groupIdx) > 0 {
-			gv := make([]any, len(groupIdx))
 			anyNull := false
 			for k, j := range groupIdx {
 				gv[k] = normalize(vals[j])
@@ -196,13 +201,13 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			uf.addRow(gv, dg)
 		}
 		if timeIdx >= 0 {
-			tv, _, ok := timeValue(vals[timeIdx], d.numeric)
+			tv, ok := timeValueFast(vals[timeIdx], d.numeric)
 			bad := !ok
 			if !ok {
 				badTime = append(badTime, id)
 			}
 			if leIdx >= 0 {
-				lv, _, ok := timeValue(vals[leIdx], d.numeric)
+				lv, ok := timeValueFast(vals[leIdx], d.numeric)
 				if !ok {
 					badLE = append(badLE, id)
 					bad = true
@@ -238,14 +243,27 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			}
 		}
 		d.n++
+		if hashDefault && d.n-sent >= hashChunk && d.n <= len(d.u) {
+			hj.add(d.digest[sent:d.n], d.u[sent:d.n])
+			sent = d.n
+		}
 		if progress != nil && d.n%65536 == 0 {
 			progress(int64(d.n), total)
 		}
-	}
-	if err := rows.Err(); err != nil {
+		return nil
+	})
+	if err != nil {
 		return nil, fmt.Errorf("read %s: %w", t.Name, err)
 	}
-	rows.Close()
+	if hashDefault {
+		if d.n > len(d.u) { // more rows than counted: wait for the chunks in flight, then grow
+			hj.wait()
+			d.u = append(d.u, make([]float64, d.n-len(d.u))...)
+		}
+		d.u = d.u[:d.n]
+		hj.add(d.digest[sent:d.n], d.u[sent:d.n])
+		hj.wait()
+	}
 	if spec.TimeInvalid == "drop" {
 		badTime, badLE = nil, nil
 	}
@@ -331,6 +349,30 @@ func label(v any) string {
 		return x
 	}
 	return fmt.Sprint(v)
+}
+
+// timeValueFast is timeValue without the text form.
+func timeValueFast(v any, numeric bool) (float64, bool) {
+	switch x := v.(type) {
+	case int64:
+		if numeric {
+			return float64(x), true
+		}
+		return 0, false
+	case float64:
+		if numeric && !math.IsNaN(x) {
+			return x, true
+		}
+		return 0, false
+	case string:
+		if numeric {
+			f, err := strconv.ParseFloat(x, 64)
+			return f, err == nil
+		}
+		return parseTimeText(x)
+	}
+	t, _, ok := timeValue(v, numeric)
+	return t, ok
 }
 
 func timeValue(v any, numeric bool) (float64, string, bool) {

@@ -128,14 +128,16 @@ func kfoldStats(d *data, a *assignment, K int, grouped bool) []foldStat {
 	for i := range out {
 		out[i] = foldStat{fold: i + 1, hasGroups: grouped}
 	}
-	var ents []map[int32]bool
+	var seen [][]bool // per fold: entities with a test row in it
+	var all []bool
+	allEnts := 0
 	if grouped {
-		ents = make([]map[int32]bool, K)
-		for i := range ents {
-			ents[i] = map[int32]bool{}
+		seen = make([][]bool, K)
+		for i := range seen {
+			seen[i] = make([]bool, len(d.entKey))
 		}
+		all = make([]bool, len(d.entKey))
 	}
-	allEnts := map[int32]bool{}
 	for i := 0; i < d.n; i++ {
 		f := a.fold[i]
 		if f <= 0 || int(f) > K {
@@ -144,15 +146,21 @@ func kfoldStats(d *data, a *assignment, K int, grouped bool) []foldStat {
 		total++
 		out[f-1].testRows++
 		if grouped {
-			ents[f-1][d.entity[i]] = true
-			allEnts[d.entity[i]] = true
+			e := d.entity[i]
+			if !seen[f-1][e] {
+				seen[f-1][e] = true
+				out[f-1].testGroups++
+			}
+			if !all[e] {
+				all[e] = true
+				allEnts++
+			}
 		}
 	}
 	for k := range out {
 		out[k].trainRows = total - out[k].testRows
 		if grouped {
-			out[k].testGroups = len(ents[k])
-			out[k].trainGroups = len(allEnts) - len(ents[k])
+			out[k].trainGroups = allEnts - out[k].testGroups
 		}
 	}
 	return out

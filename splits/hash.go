@@ -5,9 +5,12 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"fmt"
+	"hash"
 	"math"
+	"runtime"
 	"slices"
 	"strconv"
+	"sync"
 )
 
 // The hash specification (stated in full in the README, section "split"):
@@ -169,4 +172,134 @@ func Seal(digests []int64) string {
 	}
 	h.Write(buf)
 	return hex.EncodeToString(h.Sum(nil))
+}
+
+// hashChunk is how many default keys one hashing job takes.
+var hashChunk = 1 << 14 // a variable so tests can make many small chunks
+
+// hashJobs hashes content digests (the default key) on worker goroutines while the caller
+// goes on reading. Every out[i] depends only on dig[i] and the seed, so results do not depend
+// on the number of workers or their scheduling.
+type hashJobs struct {
+	ch   chan hashJob
+	wg   sync.WaitGroup
+	once sync.Once
+}
+
+type hashJob struct {
+	dig []int64
+	out []float64
+}
+
+func startHashJobs(seed uint64) *hashJobs {
+	j := &hashJobs{ch: make(chan hashJob, 64)}
+	workers := max(1, min(runtime.GOMAXPROCS(0)-1, 3)) // the reading goroutine keeps a core
+	for range workers {
+		go func() {
+			h := newHasher(seed)
+			for job := range j.ch {
+				for i, dg := range job.dig {
+					job.out[i] = h.uDigest(dg)
+				}
+				j.wg.Done()
+			}
+		}()
+	}
+	return j
+}
+
+func (j *hashJobs) add(dig []int64, out []float64) {
+	if len(dig) == 0 {
+		return
+	}
+	j.wg.Add(1)
+	j.ch <- hashJob{dig, out}
+}
+
+func (j *hashJobs) wait() { j.wg.Wait() }
+
+func (j *hashJobs) stop() { j.once.Do(func() { close(j.ch) }) }
+
+// sideSeals returns Seal over every digest (the table seal) and Seal over each side's
+// digests (side[i] < 0: on no side), from one radix sort of the digests with their sides
+// instead of one comparison sort per side. Neither slice is modified.
+func sideSeals(dig []int64, side []int16, nsides int) (string, []string) {
+	n := len(dig)
+	keys := make([]uint64, n)
+	sv := make([]int16, n)
+	for i, d := range dig {
+		keys[i] = uint64(d) ^ (1 << 63) // signed order as unsigned
+		sv[i] = side[i]
+	}
+	radixSort(keys, sv)
+	const flushAt = 8 * 1024
+	all := sha256.New()
+	allBuf := make([]byte, 0, flushAt)
+	hs := make([]hash.Hash, nsides)
+	bufs := make([][]byte, nsides)
+	for i := range hs {
+		hs[i] = sha256.New()
+		bufs[i] = make([]byte, 0, flushAt)
+	}
+	for i, k := range keys {
+		v := k ^ (1 << 63)
+		allBuf = binary.BigEndian.AppendUint64(allBuf, v)
+		if len(allBuf) == flushAt {
+			all.Write(allBuf)
+			allBuf = allBuf[:0]
+		}
+		if s := sv[i]; s >= 0 {
+			bufs[s] = binary.BigEndian.AppendUint64(bufs[s], v)
+			if len(bufs[s]) == flushAt {
+				hs[s].Write(bufs[s])
+				bufs[s] = bufs[s][:0]
+			}
+		}
+	}
+	all.Write(allBuf)
+	out := make([]string, nsides)
+	for i := range hs {
+		hs[i].Write(bufs[i])
+		out[i] = hex.EncodeToString(hs[i].Sum(nil))
+	}
+	return hex.EncodeToString(all.Sum(nil)), out
+}
+
+// radixSort sorts keys ascending, moving vals along, stably (equal keys keep their order):
+// an LSD radix sort by bytes that skips bytes every key shares.
+func radixSort[V any](keys []uint64, vals []V) {
+	n := len(keys)
+	if n < 2 {
+		return
+	}
+	k2 := make([]uint64, n)
+	v2 := make([]V, n)
+	src, srcV := keys, vals
+	for shift := uint(0); shift < 64; shift += 8 {
+		var count [256]int
+		for _, k := range src {
+			count[(k>>shift)&0xff]++
+		}
+		if count[(src[0]>>shift)&0xff] == n {
+			continue
+		}
+		pos := 0
+		for b := range count {
+			c := count[b]
+			count[b] = pos
+			pos += c
+		}
+		for i, k := range src {
+			b := (k >> shift) & 0xff
+			k2[count[b]] = k
+			v2[count[b]] = srcV[i]
+			count[b]++
+		}
+		src, k2 = k2, src
+		srcV, v2 = v2, srcV
+	}
+	if &src[0] != &keys[0] {
+		copy(keys, src)
+		copy(vals, srcV)
+	}
 }

@@ -3,6 +3,7 @@ package splits
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -111,27 +112,35 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 		}
 	}
 	res := &Result{Spec: spec, SpecJSON: spec.CanonicalJSON(), Strategy: spec.Strategy(), TableRows: d.n, Dropped: map[string]int{}, Notes: a.notes, FoldScheme: spec.FoldScheme()}
-	// Seals and counts.
-	perSide := make([][]int64, len(a.sides))
-	ents := make([]map[int32]bool, len(a.sides))
-	tmin := make([]int, len(a.sides))
-	tmax := make([]int, len(a.sides))
+	// Counts (seals below, from one radix sort of every digest with its side).
+	ns := len(a.sides)
+	sideRows := make([]int, ns)
+	var entSeen [][]bool // per side: entities with a row on it
+	entCount := make([]int, ns)
+	if d.entity != nil {
+		entSeen = make([][]bool, ns)
+		for i := range entSeen {
+			entSeen[i] = make([]bool, len(d.entKey))
+		}
+	}
+	tmin := make([]int, ns)
+	tmax := make([]int, ns)
 	for i := range a.sides {
-		ents[i] = map[int32]bool{}
 		tmin[i], tmax[i] = -1, -1
 	}
-	all := make([]int64, 0, d.n)
 	for i := 0; i < d.n; i++ {
-		all = append(all, d.digest[i])
 		s := a.side[i]
 		if s < 0 {
 			res.Dropped[reasonNames[a.reason[i]]]++
 			continue
 		}
 		res.Assigned++
-		perSide[s] = append(perSide[s], d.digest[i])
+		sideRows[s]++
 		if d.entity != nil {
-			ents[s][d.entity[i]] = true
+			if e := d.entity[i]; !entSeen[s][e] {
+				entSeen[s][e] = true
+				entCount[s]++
+			}
 		}
 		if d.t != nil {
 			if tmin[s] < 0 || d.t[i] < d.t[tmin[s]] {
@@ -142,8 +151,9 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			}
 		}
 	}
+	entSeen = nil
 	for i, sd := range a.sides {
-		if len(perSide[i]) == 0 {
+		if sideRows[i] == 0 {
 			why := ""
 			if spec.Time != "" {
 				why = " (rows with equal times stay together, and gap, purge and span drop rows)"
@@ -151,13 +161,14 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			return nil, fieldErr("sides", "side %q would get no rows of the %d in table %s%s; change the fractions, cutoff or policies", sd, d.n, spec.Table, why)
 		}
 	}
-	res.TableSeal = Seal(all)
+	var sideSeal []string
+	res.TableSeal, sideSeal = sideSeals(d.digest, a.side, ns)
 	totalEnts := 0
-	for i := range ents {
-		totalEnts += len(ents[i])
+	for _, c := range entCount {
+		totalEnts += c
 	}
 	for i, s := range a.sides {
-		ss := SideSummary{Side: s, Position: i + 1, Role: spec.Role(s), Rows: len(perSide[i]), Digest: Seal(perSide[i]), View: views[i]}
+		ss := SideSummary{Side: s, Position: i + 1, Role: spec.Role(s), Rows: sideRows[i], Digest: sideSeal[i], View: views[i]}
 		if i < len(spec.Sides) && spec.Strategy() != "adopted" {
 			f := spec.Sides[i].Fraction
 			ss.TargetFraction = &f
@@ -166,7 +177,7 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			ss.RowFraction = float64(ss.Rows) / float64(res.Assigned)
 		}
 		if d.entity != nil {
-			g := len(ents[i])
+			g := entCount[i]
 			ss.Groups = &g
 			gf := 0.0
 			if totalEnts > 0 {
@@ -294,11 +305,14 @@ func orEmpty(s []string) []string {
 	return s
 }
 
-// writeRows inserts ss_split_rows in batches of multi-row INSERTs. The split name is a
-// literal of the statement and only the columns that vary are parameters (row_id and side,
-// plus fold, train_from and reason when the split has them), which halves the binding work.
+// writeBatch is how many ss_split_rows one multi-row INSERT carries.
+const writeBatch = 200
+
+// writeRows inserts ss_split_rows with multi-row INSERTs, prepared once and executed through
+// the driver's own statement interface. The split name is a literal of the statement and only
+// the columns that vary are parameters (row_id and side, plus fold, train_from and reason when
+// the split has them).
 func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *assignment, progress func(done, total int64)) error {
-	const batch = 1000
 	hasFold, hasTF, hasReason := a.fold != nil, a.trainFrom != nil, false
 	for _, r := range a.reason {
 		if r != reasonNone {
@@ -323,70 +337,235 @@ func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *ass
 	stmt := func(n int) string {
 		return `INSERT INTO ss_split_rows(split_name, row_id, side, fold, train_from, reason) VALUES` + strings.TrimSuffix(strings.Repeat(tuple, n), ",")
 	}
-	full, err := conn.PrepareContext(ctx, stmt(batch))
-	if err != nil {
-		return err
-	}
-	defer full.Close()
-	args := make([]any, 0, per*batch)
-	flush := func(st *sql.Stmt) error {
-		if st == nil {
-			s, err := conn.PrepareContext(ctx, stmt(len(args)/per))
-			if err != nil {
-				return err
-			}
-			defer s.Close()
-			st = s
-		}
-		_, err := st.ExecContext(ctx, args...)
-		args = args[:0]
-		return err
-	}
-	sides := make([]any, len(a.sides))
+	sides := make([]driver.Value, len(a.sides))
 	for i, s := range a.sides {
 		sides[i] = s
 	}
-	reasons := make([]any, len(reasonNames))
+	reasons := make([]driver.Value, len(reasonNames))
 	for i, r := range reasonNames {
 		reasons[i] = r
 	}
-	var empty any = ""
-	for i := 0; i < d.n; i++ {
-		side := empty
-		if a.side[i] >= 0 {
-			side = sides[a.side[i]]
+	var empty driver.Value = ""
+	// Small integers boxed once: folds and train_from are 1..K.
+	small := make([]driver.Value, 1024)
+	for i := range small {
+		small[i] = int64(i)
+	}
+	boxInt := func(v int32) driver.Value {
+		if v <= 0 {
+			return nil
 		}
-		args = append(args, d.rowID[i], side)
-		if hasFold {
-			var fold any
-			if a.fold[i] > 0 {
-				fold = int64(a.fold[i])
+		if int(v) < len(small) {
+			return small[v]
+		}
+		return int64(v)
+	}
+	if pk := newPacking(name, d, a, hasReason); pk != nil {
+		return writeRowsPacked(ctx, conn, pk, d, a, progress)
+	}
+	return conn.Raw(func(dc any) error {
+		full, err := rawPrepare(ctx, dc, stmt(writeBatch))
+		if err != nil {
+			return err
+		}
+		defer full.Close()
+		args := make([]driver.NamedValue, per*writeBatch)
+		for i := range args {
+			args[i].Ordinal = i + 1
+		}
+		k := 0
+		for i := 0; i < d.n; i++ {
+			side := empty
+			if a.side[i] >= 0 {
+				side = sides[a.side[i]]
 			}
-			args = append(args, fold)
-		}
-		if hasTF {
-			var tf any
-			if a.trainFrom[i] > 0 {
-				tf = int64(a.trainFrom[i])
+			args[k].Value = d.rowID[i]
+			args[k+1].Value = side
+			k += 2
+			if hasFold {
+				args[k].Value = boxInt(a.fold[i])
+				k++
 			}
-			args = append(args, tf)
+			if hasTF {
+				args[k].Value = boxInt(a.trainFrom[i])
+				k++
+			}
+			if hasReason {
+				args[k].Value = reasons[a.reason[i]]
+				k++
+			}
+			if k == len(args) {
+				if err := full.exec(ctx, args); err != nil {
+					return err
+				}
+				k = 0
+				if progress != nil && (i+1)%65536 < writeBatch {
+					progress(int64(i+1), int64(d.n))
+				}
+			}
 		}
-		if hasReason {
-			args = append(args, reasons[a.reason[i]])
-		}
-		if len(args) == per*batch {
-			if err := flush(full); err != nil {
+		if k > 0 {
+			st, err := rawPrepare(ctx, dc, stmt(k/per))
+			if err != nil {
 				return err
 			}
-			if progress != nil && (i+1)%65536 < batch {
-				progress(int64(i+1), int64(d.n))
-			}
+			defer st.Close()
+			return st.exec(ctx, args[:k])
+		}
+		return nil
+	})
+}
+
+// packing writes each ss_split_rows row through one bound integer: row_id, side, fold,
+// train_from and reason packed into bit fields that the INSERT statement unpacks with plain
+// SQL (shifts, masks, CASE over the side and reason names) from a VALUES list of anonymous
+// parameters (numbered ones cost the driver a linear name lookup each). One integer
+// parameter per row instead of two to five, and no text parameters to copy, cuts the
+// driver's binding work; the stored values are the same. Used when every row_id fits
+// beside the fields.
+type packing struct {
+	sel                     string // the SELECT list over column1
+	shift                   uint   // row_id is v >> shift
+	foldAt, tfAt, reasonAt  uint
+	hasFold, hasTF, hasReas bool
+}
+
+func bitsFor(n int) uint { // bits to hold 0..n-1
+	b := uint(0)
+	for (1 << b) < n {
+		b++
+	}
+	return max(b, 1)
+}
+
+func newPacking(name string, d *data, a *assignment, hasReason bool) *packing {
+	pk := &packing{hasFold: a.fold != nil, hasTF: a.trainFrom != nil, hasReas: hasReason}
+	bs := bitsFor(len(a.sides) + 1) // 0 = dropped (side '')
+	maxF, maxT := int32(0), int32(0)
+	for i := 0; i < d.n; i++ {
+		if pk.hasFold {
+			maxF = max(maxF, a.fold[i])
+		}
+		if pk.hasTF {
+			maxT = max(maxT, a.trainFrom[i])
 		}
 	}
-	if len(args) > 0 {
-		return flush(nil)
+	if maxF < 0 || maxT < 0 {
+		return nil
 	}
-	return nil
+	at := bs
+	var bf, bt, br uint
+	if pk.hasFold {
+		bf = bitsFor(int(maxF) + 1)
+	}
+	pk.foldAt = at
+	at += bf
+	if pk.hasTF {
+		bt = bitsFor(int(maxT) + 1)
+	}
+	pk.tfAt = at
+	at += bt
+	if hasReason {
+		br = bitsFor(len(reasonNames))
+	}
+	pk.reasonAt = at
+	at += br
+	pk.shift = at
+	if at > 20 {
+		return nil
+	}
+	for i := 0; i < d.n; i++ {
+		if id := d.rowID[i]; id < 0 || id >= 1<<(62-at) {
+			return nil
+		}
+	}
+	const p = "column1"
+	var b strings.Builder
+	fmt.Fprintf(&b, "%s,%s>>%d,CASE %s&%d", quoteString(name), p, at, p, (1<<bs)-1)
+	for i, sd := range a.sides {
+		fmt.Fprintf(&b, " WHEN %d THEN %s", i+1, quoteString(sd))
+	}
+	b.WriteString(" ELSE '' END,")
+	if pk.hasFold {
+		fmt.Fprintf(&b, "nullif(%s>>%d&%d,0),", p, pk.foldAt, (1<<bf)-1)
+	} else {
+		b.WriteString("NULL,")
+	}
+	if pk.hasTF {
+		fmt.Fprintf(&b, "nullif(%s>>%d&%d,0),", p, pk.tfAt, (1<<bt)-1)
+	} else {
+		b.WriteString("NULL,")
+	}
+	if hasReason {
+		fmt.Fprintf(&b, "CASE %s>>%d&%d", p, pk.reasonAt, (1<<br)-1)
+		for i, r := range reasonNames {
+			if r != "" {
+				fmt.Fprintf(&b, " WHEN %d THEN %s", i, quoteString(r))
+			}
+		}
+		b.WriteString(" ELSE '' END")
+	} else {
+		b.WriteString("''")
+	}
+	pk.sel = b.String()
+	return pk
+}
+
+func (pk *packing) stmt(n int) string {
+	return `INSERT INTO ss_split_rows(split_name, row_id, side, fold, train_from, reason) SELECT ` + pk.sel +
+		` FROM (VALUES` + strings.TrimSuffix(strings.Repeat("(?),", n), ",") + `)`
+}
+
+func (pk *packing) value(d *data, a *assignment, i int) int64 {
+	v := uint64(d.rowID[i]) << pk.shift
+	v |= uint64(a.side[i] + 1)
+	if pk.hasFold && a.fold[i] > 0 {
+		v |= uint64(a.fold[i]) << pk.foldAt
+	}
+	if pk.hasTF && a.trainFrom[i] > 0 {
+		v |= uint64(a.trainFrom[i]) << pk.tfAt
+	}
+	if pk.hasReas {
+		v |= uint64(a.reason[i]) << pk.reasonAt
+	}
+	return int64(v)
+}
+
+func writeRowsPacked(ctx context.Context, conn *sql.Conn, pk *packing, d *data, a *assignment, progress func(done, total int64)) error {
+	return conn.Raw(func(dc any) error {
+		full, err := rawPrepare(ctx, dc, pk.stmt(writeBatch))
+		if err != nil {
+			return err
+		}
+		defer full.Close()
+		args := make([]driver.NamedValue, writeBatch)
+		for i := range args {
+			args[i].Ordinal = i + 1
+		}
+		k := 0
+		for i := 0; i < d.n; i++ {
+			args[k].Value = pk.value(d, a, i)
+			k++
+			if k == len(args) {
+				if err := full.exec(ctx, args); err != nil {
+					return err
+				}
+				k = 0
+				if progress != nil && (i+1)%65536 < writeBatch {
+					progress(int64(i+1), int64(d.n))
+				}
+			}
+		}
+		if k > 0 {
+			st, err := rawPrepare(ctx, dc, pk.stmt(k))
+			if err != nil {
+				return err
+			}
+			defer st.Close()
+			return st.exec(ctx, args[:k])
+		}
+		return nil
+	})
 }
 
 // Drop removes a split: its rows, sides, folds, views, ss_objects entries and audit queries.

@@ -18,7 +18,39 @@ func timeOrder(d *data, rows []int) []int {
 			}
 		}
 	}
-	// Rows are in ss_row order, so a stable sort by time gives (time, ss_row) order.
+	// Rows are in ss_row order, so a stable sort by time gives (time, ss_row) order: a
+	// stable radix sort of the times as order-preserving integers.
+	keys := make([]uint64, len(rows))
+	idx := make([]int32, len(rows))
+	for j, i := range rows {
+		t := d.t[i]
+		if t != t { // NaN: cmp.Compare's order, by the comparison sort
+			return timeOrderCmp(d, rows)
+		}
+		keys[j] = floatKey(t)
+		idx[j] = int32(i)
+	}
+	radixSort(keys, idx)
+	for j := range idx {
+		rows[j] = int(idx[j])
+	}
+	return rows
+}
+
+// floatKey maps a float64 (not NaN) to a uint64 of the same order; -0 and +0 are equal.
+func floatKey(f float64) uint64 {
+	if f == 0 {
+		f = 0
+	}
+	b := math.Float64bits(f)
+	if b>>63 != 0 {
+		return ^b
+	}
+	return b | 1<<63
+}
+
+// timeOrderCmp is timeOrder by a stable comparison sort (for times with NaN).
+func timeOrderCmp(d *data, rows []int) []int {
 	type tk struct {
 		t float64
 		i int

@@ -1,0 +1,135 @@
+package splits
+
+import (
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"strings"
+	"testing"
+)
+
+// sideSeals (one radix sort for every side) must equal Seal per side, duplicates and dropped
+// rows included, with negative and positive digests.
+func TestSideSeals_EqualSealPerSide(t *testing.T) {
+	r := rand.New(rand.NewPCG(5, 6))
+	for _, n := range []int{0, 1, 2, 17, 5000} {
+		dig := make([]int64, n)
+		side := make([]int16, n)
+		for i := range dig {
+			switch r.IntN(4) {
+			case 0:
+				dig[i] = int64(r.Uint64())
+			case 1:
+				dig[i] = int64(r.IntN(50)) - 25 // small values and duplicates
+			case 2:
+				dig[i] = -int64(r.Uint64() >> 1)
+			default:
+				if i > 0 {
+					dig[i] = dig[r.IntN(i)]
+				}
+			}
+			side[i] = int16(r.IntN(4)) - 1 // -1 = dropped
+		}
+		orig := append([]int64(nil), dig...)
+		table, per := sideSeals(dig, side, 3)
+		if want := Seal(append([]int64(nil), dig...)); table != want {
+			t.Errorf("n=%d: table seal %s, Seal gives %s", n, table, want)
+		}
+		for s := range 3 {
+			var ds []int64
+			for i, d := range dig {
+				if side[i] == int16(s) {
+					ds = append(ds, d)
+				}
+			}
+			if want := Seal(ds); per[s] != want {
+				t.Errorf("n=%d side %d: seal %s, Seal gives %s", n, s, per[s], want)
+			}
+		}
+		for i := range dig {
+			if dig[i] != orig[i] {
+				t.Fatalf("n=%d: sideSeals modified its input", n)
+			}
+		}
+	}
+}
+
+// The assignment tables must not depend on the number of cores: the same splits made with
+// GOMAXPROCS 1 and 2 (hashing in many small chunks) store identical rows.
+func TestSplit_SameWithOneOrTwoCores(t *testing.T) {
+	defer func(c int) { hashChunk = c }(hashChunk)
+	hashChunk = 37
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	specs := []Spec{
+		{Name: "r", Sides: Sides{{"train", 0.7}, {"valid", 0.15}, {"holdout", 0.15}}},
+		{Name: "g", Group: []string{"grp"}},
+		{Name: "tm", Time: "day", Gap: "7d"},
+		{Name: "f", Folds: 5},
+		{Name: "fg", Group: []string{"grp"}, Folds: 5},
+		{Name: "k", Key: []string{"id"}, Stratify: "cls", Folds: 3},
+		{Name: "ro", Time: "day", Folds: 3},
+	}
+	dump := func(procs int) string {
+		runtime.GOMAXPROCS(procs)
+		path := newDB(t)
+		makeTable(t, path, "t", genCols, genRows(11, 1500, 200, 1), nil)
+		var b strings.Builder
+		for _, sp := range specs {
+			sp.Table, sp.Seed = "t", 9
+			mustSplit(t, path, sp)
+		}
+		for _, q := range []string{
+			`SELECT split_name, row_id, side, fold, train_from, reason FROM ss_split_rows ORDER BY 1, 2`,
+			`SELECT * FROM ss_split_sides ORDER BY 1, 2`,
+			`SELECT * FROM ss_split_folds ORDER BY 1, 2`,
+			`SELECT split_name, strategy, spec_json, seed, table_rows, assigned_rows, dropped_rows, table_seal, summary_json FROM ss_splits ORDER BY 1`,
+		} {
+			b.WriteString(strings.Join(query(t, path, q), "\n"))
+			b.WriteString("\n--\n")
+		}
+		return b.String()
+	}
+	one, two := dump(1), dump(2)
+	if one != two {
+		t.Errorf("GOMAXPROCS 1 and 2 give different split tables")
+	}
+	if !strings.Contains(one, "|holdout|") || !strings.Contains(one, "fg|") {
+		t.Errorf("dump looks empty:\n%.300s", one)
+	}
+}
+
+// The radix time order equals the stable comparison sort by time (ties in row order), with
+// negative times, -0 and +0, infinities and many equal times.
+func TestTimeOrder_RadixEqualsStableSort(t *testing.T) {
+	r := rand.New(rand.NewPCG(7, 8))
+	for _, n := range []int{0, 1, 2, 3, 1000, 20000} {
+		d := &data{n: n, t: make([]float64, n), tBad: make([]bool, n)}
+		for i := range d.t {
+			switch r.IntN(6) {
+			case 0:
+				d.t[i] = float64(r.IntN(20) - 10)
+			case 1:
+				d.t[i] = math.Copysign(0, -1)
+			case 2:
+				d.t[i] = r.NormFloat64() * 1e9
+			case 3:
+				d.t[i] = math.Inf(2*r.IntN(2) - 1)
+			default:
+				d.t[i] = float64(1.5e9 + float64(r.IntN(2000))*86400)
+			}
+			d.tBad[i] = r.IntN(10) == 0
+		}
+		got := timeOrder(d, nil)
+		var rows []int
+		for i := 0; i < n; i++ {
+			if !d.tBad[i] {
+				rows = append(rows, i)
+			}
+		}
+		want := timeOrderCmp(d, rows)
+		if !slices.Equal(got, want) {
+			t.Fatalf("n=%d: radix time order differs from the stable sort", n)
+		}
+	}
+}

@@ -1,0 +1,113 @@
+package splits
+
+import (
+	"context"
+	"database/sql"
+	"database/sql/driver"
+	"errors"
+	"fmt"
+	"io"
+	"strconv"
+)
+
+// The bulk paths (reading a million keys, writing a million assignment rows) go through the
+// driver's own statement interface inside conn.Raw: database/sql's per-row Scan conversion and
+// per-statement argument conversion cost more than SQLite's own work here. The values are
+// the same ones database/sql would hand over (int64, float64, string, []byte, nil).
+// Inside fn nothing may use conn itself (database/sql holds the connection's lock).
+
+// rawQuery runs query with args and calls fn with each row's values; vals is reused between
+// rows, and []byte values must be copied to be kept.
+func rawQuery(ctx context.Context, conn *sql.Conn, query string, args []any, fn func(vals []driver.Value) error) error {
+	return conn.Raw(func(dc any) error {
+		qc, ok := dc.(driver.QueryerContext)
+		if !ok {
+			return errors.New("driver connection cannot query with a context")
+		}
+		nargs := make([]driver.NamedValue, len(args))
+		for i, a := range args {
+			nargs[i] = driver.NamedValue{Ordinal: i + 1, Value: a}
+		}
+		rows, err := qc.QueryContext(ctx, query, nargs)
+		if err != nil {
+			return err
+		}
+		closed := false
+		defer func() {
+			if !closed {
+				rows.Close() // modernc must not finalize a statement twice
+			}
+		}()
+		vals := make([]driver.Value, len(rows.Columns()))
+		for {
+			if err := rows.Next(vals); err != nil {
+				if err == io.EOF {
+					break
+				}
+				return err
+			}
+			if err := fn(vals); err != nil {
+				return err
+			}
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		closed = true
+		return rows.Close()
+	})
+}
+
+// rawStmt is a prepared statement of the driver, executed without database/sql.
+type rawStmt struct {
+	st driver.Stmt
+	ex driver.StmtExecContext
+}
+
+func rawPrepare(ctx context.Context, dc any, query string) (*rawStmt, error) {
+	pc, ok := dc.(driver.ConnPrepareContext)
+	if !ok {
+		return nil, errors.New("driver connection cannot prepare statements")
+	}
+	st, err := pc.PrepareContext(ctx, query)
+	if err != nil {
+		return nil, err
+	}
+	ex, ok := st.(driver.StmtExecContext)
+	if !ok {
+		st.Close()
+		return nil, errors.New("driver statement cannot execute with a context")
+	}
+	return &rawStmt{st, ex}, nil
+}
+
+func (s *rawStmt) exec(ctx context.Context, args []driver.NamedValue) error {
+	_, err := s.ex.ExecContext(ctx, args)
+	return err
+}
+
+func (s *rawStmt) Close() error { return s.st.Close() }
+
+// asInt64 converts a driver value to int64 as database/sql's Scan into *int64 does.
+func asInt64(v driver.Value, col string) (int64, error) {
+	var s string
+	switch x := v.(type) {
+	case int64:
+		return x, nil
+	case float64:
+		s = strconv.FormatFloat(x, 'g', -1, 64)
+	case string:
+		s = x
+	case []byte:
+		s = string(x)
+	case bool:
+		s = strconv.FormatBool(x)
+	default:
+		return 0, fmt.Errorf("column %s: converting %T to int64 is unsupported", col, v)
+	}
+	n, err := strconv.ParseInt(s, 10, 64)
+	if err != nil {
+		return 0, fmt.Errorf("column %s: converting %T %q to int64: %w", col, v, s, err)
+	}
+	return n, nil
+}

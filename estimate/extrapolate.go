@@ -70,7 +70,7 @@ type Result struct {
 	Fits      []Fit // every family tried, in Options.Families order
 	Asymptote Interval
 	NStar     *Interval // nil when no target
-	Reachable bool      // the target lies above the asymptote's interval (true when no target)
+	Reachable bool      // the target lies above the asymptote's interval and n* within HorizonN (true when no target)
 	AtErr     *Interval // nil when no At
 	Verdict   string    // plain sentences for the planner
 	// Added fields.

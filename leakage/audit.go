@@ -156,6 +156,8 @@ type audit struct {
 	rawNeeded           map[string]bool     // columns read as values, not only in rounded form
 	useDigest           bool                // load ss_digest
 	sqlKeys             map[string][]string // key SQL -> each row's key, built by SQLite
+	stream              []keySpec           // keys hashed while the rows are read
+	streamed            map[string][]uint64 // key SQL -> each row's key hash (stream)
 	digest              []int64
 }
 
@@ -251,6 +253,9 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			default:
 				need(a.feature...)
 				a.roundReal = append(a.roundReal, k.realDig)
+				if c == ExactDuplicate || c == LabelConflict {
+					a.addStream(k)
+				}
 			}
 		case LeakingFeature, DistributionShift:
 			raw(a.feature...)
@@ -306,6 +311,15 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 		return nil, fmt.Errorf("audit %s: %w", a.split, err)
 	}
 	return rep, nil
+}
+
+func (a *audit) addStream(k keySpec) {
+	for _, x := range a.stream {
+		if a.keySQL(x, "t") == a.keySQL(k, "t") {
+			return
+		}
+	}
+	a.stream = append(a.stream, k)
 }
 
 func (a *audit) resolved(rep *Report) map[string]any {
@@ -524,7 +538,13 @@ func (a *audit) loadRows() error {
 		total += int64(s.Rows)
 	}
 	var sel strings.Builder
-	sel.WriteString(`SELECT r.row_id, r.side`)
+	// The side as its index in ss_split_sides (an integer is cheaper to read than text); a
+	// side not listed there comes as its name.
+	sel.WriteString(`SELECT r.row_id, CASE r.side`)
+	for i, sd := range a.sides {
+		fmt.Fprintf(&sel, " WHEN %s THEN %d", quoteString(sd.Name), i)
+	}
+	sel.WriteString(" ELSE r.side END")
 	if a.useDigest {
 		sel.WriteString(", t.ss_digest")
 	}
@@ -620,11 +640,50 @@ func (a *audit) loadRows() error {
 	for _, e := range keyExprs {
 		a.sqlKeys[e] = make([]string, 0, total)
 	}
+	// Keys whose every part is known once a row is read are hashed as it is read (on the
+	// processing goroutine, while the next rows are read); not REAL values rounded after the
+	// read (their raw values are needed too).
+	later := map[*column]map[int]bool{}
+	for _, r := range goRounds {
+		if later[r.col] == nil {
+			later[r.col] = map[int]bool{}
+		}
+		later[r.col][r.d] = true
+	}
+	type stream struct {
+		spec keySpec
+		name string
+		cols []*column
+	}
+	var streams []stream
+	a.streamed = map[string][]uint64{}
+	for _, k := range a.stream {
+		ok := true
+		for _, n := range k.cols {
+			c := a.data[n]
+			switch {
+			case c == nil:
+				ok = false
+			case c.SQLType == "REAL" && (later[c][k.realDig] || c.rounded == nil):
+				ok = false
+			case c.SQLType == "INTEGER" && k.intDig > 0:
+				ok = false
+			}
+		}
+		if ok {
+			name := a.keySQL(k, "t")
+			streams = append(streams, stream{k, name, a.keyCols(k)})
+			a.streamed[name] = make([]uint64, 0, total)
+		}
+	}
+	var kbuf []byte
 	process := func(vals []driver.Value) error {
 		id, _ := vals[0].(int64)
 		var si int
 		var ok bool
 		switch x := vals[1].(type) {
+		case int64:
+			si, ok = int(x), x >= 0 && int(x) < len(a.sides)
 		case string:
 			si, ok = sideIdx[x]
 		case []byte:
@@ -672,6 +731,11 @@ func (a *audit) loadRows() error {
 		for k, e := range keyExprs {
 			a.sqlKeys[e] = append(a.sqlKeys[e], asString(vals[first+len(cols)+len(rounds)+k]))
 		}
+		for _, st := range streams {
+			var h uint64
+			h, kbuf = rowKey(st.cols, st.spec, len(a.rowID)-1, kbuf)
+			a.streamed[st.name] = append(a.streamed[st.name], h)
+		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)
 		}
@@ -695,7 +759,16 @@ func (a *audit) loadRows() error {
 		}
 		c.rounded[r.d] = out
 	}
-	return a.roundInSQL(fb)
+	if err := a.roundInSQL(fb); err != nil {
+		return err
+	}
+	// Rows with a value SQLite rounded: hash them again, now that it is known.
+	for _, f := range fb {
+		for _, st := range streams {
+			a.streamed[st.name][f.row], kbuf = rowKey(st.cols, st.spec, f.row, kbuf)
+		}
+	}
+	return nil
 }
 
 // readPipelined runs the row query and calls process with each row, in order. With two or

@@ -154,49 +154,69 @@ func (a *audit) keys(k keySpec) []uint64 {
 		}
 		return out
 	}
+	if ks, ok := a.streamed[a.keySQL(k, "t")]; ok && len(ks) == len(out) {
+		copy(out, ks) // hashed while the rows were read
+		return out
+	}
+	cols := a.keyCols(k)
+	parallel(len(out), a.workers, func(lo, hi int) {
+		var buf []byte
+		for i := lo; i < hi; i++ {
+			out[i], buf = rowKey(cols, k, i, buf)
+		}
+	})
+	return out
+}
+
+func (a *audit) keyCols(k keySpec) []*column {
 	cols := make([]*column, len(k.cols))
 	for i, n := range k.cols {
 		cols[i] = a.data[n]
 	}
-	parallel(len(out), a.workers, func(lo, hi int) {
-		var buf []byte
-		for i := lo; i < hi; i++ {
-			buf = buf[:0]
-			for j, c := range cols {
-				if j > 0 {
-					buf = append(buf, '|')
-				}
-				if c.null[i] {
-					buf = append(buf, 'n')
-					continue
-				}
-				var s string
-				switch {
-				case c.SQLType == "TEXT" && k.normalize:
-					s = NormalizeValue(c.str[i])
-				case c.SQLType == "TEXT":
-					s = c.str[i]
-				case c.SQLType == "INTEGER" && k.intDig == 0:
-					s = strconv.FormatInt(c.ints[i], 10)
-				case c.SQLType == "INTEGER":
-					s = c.rounded[k.intDig][i]
-				default:
-					s = c.rounded[k.realDig][i]
-				}
-				buf = append(buf, 'v')
-				buf = strconv.AppendInt(buf, int64(utf8.RuneCountInString(s)), 10)
-				buf = append(buf, ':')
-				buf = append(buf, s...)
-			}
-			h := uint64(fnvOffset)
-			for _, b := range buf {
-				h ^= uint64(b)
-				h *= fnvPrime
-			}
-			out[i] = h
+	return cols
+}
+
+// rowKey is row i's key hash: FNV-1a 64 over the bytes keySQL builds.
+func rowKey(cols []*column, k keySpec, i int, buf []byte) (uint64, []byte) {
+	buf = buf[:0]
+	for j, c := range cols {
+		if j > 0 {
+			buf = append(buf, '|')
 		}
-	})
-	return out
+		if c.null[i] {
+			buf = append(buf, 'n')
+			continue
+		}
+		var s string
+		switch {
+		case c.SQLType == "TEXT" && k.normalize:
+			s = NormalizeValue(c.str[i])
+		case c.SQLType == "TEXT":
+			s = c.str[i]
+		case c.SQLType == "INTEGER" && k.intDig == 0:
+			var nb [24]byte
+			num := strconv.AppendInt(nb[:0], c.ints[i], 10) // ASCII: one rune per byte
+			buf = append(buf, 'v')
+			buf = strconv.AppendInt(buf, int64(len(num)), 10)
+			buf = append(buf, ':')
+			buf = append(buf, num...)
+			continue
+		case c.SQLType == "INTEGER":
+			s = c.rounded[k.intDig][i]
+		default:
+			s = c.rounded[k.realDig][i]
+		}
+		buf = append(buf, 'v')
+		buf = strconv.AppendInt(buf, int64(utf8.RuneCountInString(s)), 10)
+		buf = append(buf, ':')
+		buf = append(buf, s...)
+	}
+	h := uint64(fnvOffset)
+	for _, b := range buf {
+		h ^= uint64(b)
+		h *= fnvPrime
+	}
+	return h, buf
 }
 
 // groupsOf returns the runs of row indexes sharing a key, for runs longer than one, each

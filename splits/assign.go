@@ -157,6 +157,11 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		hj = startHashJobs(spec.Seed)
 		defer hj.stop()
 	}
+	var gf *groupFeed
+	if len(groupIdx) > 0 {
+		gf = newGroupFeed(uf)
+		defer gf.stop()
+	}
 	sent := 0
 	query := `SELECT ` + strings.Join(cols, ", ") + ` FROM ` + quoteIdent(t.Name) + ` WHERE ` + where + ` ORDER BY ss_row`
 	err = rawQuery(ctx, conn, query, wargs, func(vals []driver.Value) error {
@@ -198,7 +203,7 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			if anyNull {
 				nullGroup = append(nullGroup, id)
 			}
-			uf.addRow(gv, dg)
+			gf.add(gv, dg)
 		}
 		if timeIdx >= 0 {
 			tv, ok := timeValueFast(vals[timeIdx], d.numeric)
@@ -254,6 +259,9 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 	})
 	if err != nil {
 		return nil, fmt.Errorf("read %s: %w", t.Name, err)
+	}
+	if gf != nil {
+		gf.finish()
 	}
 	if hashDefault {
 		if d.n > len(d.u) { // more rows than counted: wait for the chunks in flight, then grow

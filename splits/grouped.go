@@ -31,11 +31,16 @@ func newUnionFind(ncol int) *unionFind {
 
 func (u *unionFind) node(col int, v any) int32 {
 	u.buf, _ = AppendValue(u.buf[:0], v)
-	if n, ok := u.nodeIdx[col][string(u.buf)]; ok {
+	return u.nodeEnc(col, u.buf)
+}
+
+// nodeEnc is node for a value already in its content-digest encoding.
+func (u *unionFind) nodeEnc(col int, enc []byte) int32 {
+	if n, ok := u.nodeIdx[col][string(enc)]; ok {
 		return n
 	}
 	n := int32(len(u.parent))
-	k := string(u.buf)
+	k := string(enc)
 	u.nodeIdx[col][k] = n
 	u.nodeCol = append(u.nodeCol, int32(col))
 	u.nodeKey = append(u.nodeKey, k)
@@ -76,11 +81,113 @@ func (u *unionFind) addRow(vals []any, digest int64) {
 			u.union(first, n)
 		}
 	}
+	u.endRow(first, digest)
+}
+
+func (u *unionFind) endRow(first int32, digest int64) {
 	if first < 0 {
 		u.own = append(u.own, DigestKey(digest))
 		first = -int32(len(u.own))
 	}
 	u.rowNode = append(u.rowNode, first)
+}
+
+// groupChunk is encoded group values of consecutive rows, for a unionFind on another
+// goroutine: value k (row k / ncol, column k % ncol) is enc[ends[k-1]:ends[k]], NULL when
+// null[k].
+type groupChunk struct {
+	enc     []byte
+	ends    []int32
+	null    []bool
+	digests []int64
+}
+
+// addChunk adds a chunk's rows in order, exactly as addRow would.
+func (u *unionFind) addChunk(c *groupChunk) {
+	start := int32(0)
+	for r, dg := range c.digests {
+		first := int32(-1)
+		for col := 0; col < u.ncol; col++ {
+			k := r*u.ncol + col
+			end := c.ends[k]
+			if !c.null[k] {
+				n := u.nodeEnc(col, c.enc[start:end])
+				if first < 0 {
+					first = n
+				} else {
+					u.union(first, n)
+				}
+			}
+			start = end
+		}
+		u.endRow(first, dg)
+	}
+}
+
+// groupFeed runs a unionFind on its own goroutine, fed chunk by chunk in row order, so
+// that the map work overlaps reading. The result is the same as adding the rows in order.
+type groupFeed struct {
+	uf         *unionFind
+	cur        *groupChunk
+	full, free chan *groupChunk
+	done       chan struct{}
+}
+
+var groupChunkRows = 4096 // a variable so tests can make many small chunks
+
+func newGroupFeed(uf *unionFind) *groupFeed {
+	g := &groupFeed{uf: uf, full: make(chan *groupChunk, 8), free: make(chan *groupChunk, 10), done: make(chan struct{})}
+	for range 10 {
+		g.free <- &groupChunk{}
+	}
+	g.cur = <-g.free
+	go func() {
+		defer close(g.done)
+		for c := range g.full {
+			uf.addChunk(c)
+			c.enc, c.ends, c.null, c.digests = c.enc[:0], c.ends[:0], c.null[:0], c.digests[:0]
+			g.free <- c
+		}
+	}()
+	return g
+}
+
+// add appends one row's group values (nil = NULL).
+func (g *groupFeed) add(vals []any, digest int64) {
+	c := g.cur
+	for _, v := range vals {
+		if v == nil {
+			c.null = append(c.null, true)
+		} else {
+			c.enc, _ = AppendValue(c.enc, v)
+			c.null = append(c.null, false)
+		}
+		c.ends = append(c.ends, int32(len(c.enc)))
+	}
+	c.digests = append(c.digests, digest)
+	if len(c.digests) == groupChunkRows {
+		g.full <- c
+		g.cur = <-g.free
+	}
+}
+
+// finish sends the last rows and waits until every row is added; stop without finish
+// (on an error) only ends the goroutine.
+func (g *groupFeed) finish() {
+	if len(g.cur.digests) > 0 {
+		g.full <- g.cur
+	}
+	close(g.full)
+	<-g.done
+}
+
+func (g *groupFeed) stop() {
+	select {
+	case <-g.done:
+	default:
+		close(g.full)
+		<-g.done
+	}
 }
 
 func (u *unionFind) less(a, b int32) bool {

@@ -58,8 +58,8 @@ func TestSideSeals_EqualSealPerSide(t *testing.T) {
 // The assignment tables must not depend on the number of cores: the same splits made with
 // GOMAXPROCS 1 and 2 (hashing in many small chunks) store identical rows.
 func TestSplit_SameWithOneOrTwoCores(t *testing.T) {
-	defer func(c int) { hashChunk = c }(hashChunk)
-	hashChunk = 37
+	defer func(c, g int) { hashChunk, groupChunkRows = c, g }(hashChunk, groupChunkRows)
+	hashChunk, groupChunkRows = 37, 29
 	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
 	specs := []Spec{
 		{Name: "r", Sides: Sides{{"train", 0.7}, {"valid", 0.15}, {"holdout", 0.15}}},
@@ -69,6 +69,7 @@ func TestSplit_SameWithOneOrTwoCores(t *testing.T) {
 		{Name: "fg", Group: []string{"grp"}, Folds: 5},
 		{Name: "k", Key: []string{"id"}, Stratify: "cls", Folds: 3},
 		{Name: "ro", Time: "day", Folds: 3},
+		{Name: "g2", Group: []string{"grp", "id"}, Folds: 3},
 	}
 	dump := func(procs int) string {
 		runtime.GOMAXPROCS(procs)

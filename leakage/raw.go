@@ -164,6 +164,9 @@ func roundSignificant(buf []byte, x float64, digits int) (string, []byte, bool) 
 	if ax := math.Abs(x); ax < 1e-290 || ax > 1e290 {
 		return "", buf, false
 	}
+	if r, ok, sure := roundFast(x, digits); sure {
+		return r, buf, ok
+	}
 	// 17 significant digits, correctly rounded: d.dddddddddddddddde±XX
 	buf = strconv.AppendFloat(buf[:0], x, 'e', 16, 64)
 	s := buf
@@ -226,6 +229,77 @@ func roundSignificant(buf []byte, x float64, digits int) (string, []byte, bool) 
 	}
 	out = strconv.AppendInt(out, int64(exp), 10)
 	return string(out), buf, true
+}
+
+var pow10f = [23]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// roundFast is roundSignificant in float arithmetic: m = |x|·10^(digits-1-e) lands in
+// [10^(digits-1), 10^digits) with one rounding (powers of ten up to 10^22 are exact), so its
+// error is under 1.2e-5 of a unit at 11 digits, well inside the 1e-4 band around one half
+// that is left to SQLite. sure = false when the scale is out of that range (the caller
+// then decides with 17 digits).
+func roundFast(x float64, digits int) (r string, ok, sure bool) {
+	ax := math.Abs(x)
+	e := int(math.Floor(math.Log10(ax)))
+	var m float64
+	for try := 0; try < 2; try++ {
+		shift := digits - 1 - e
+		switch {
+		case shift >= 0 && shift <= 22:
+			m = ax * pow10f[shift]
+		case shift < 0 && shift >= -22:
+			m = ax / pow10f[-shift]
+		default:
+			return "", false, false
+		}
+		lo, hi := pow10f[digits-1], pow10f[digits]
+		if m < lo {
+			e--
+		} else if m >= hi {
+			e++
+		} else {
+			break
+		}
+		if try == 1 {
+			return "", false, false
+		}
+	}
+	fl := math.Floor(m)
+	frac := m - fl
+	if math.Abs(frac-0.5) < 1e-4 {
+		return "", false, true
+	}
+	n := int64(fl)
+	if frac > 0.5 {
+		n++
+	}
+	if float64(n) == pow10f[digits] {
+		n /= 10
+		e++
+	}
+	var nb [24]byte
+	dg := strconv.AppendInt(nb[:0], n, 10)
+	out := make([]byte, 0, digits+8)
+	if x < 0 {
+		out = append(out, '-')
+	}
+	out = append(out, dg[0])
+	if digits > 1 {
+		out = append(out, '.')
+		out = append(out, dg[1:]...)
+	}
+	out = append(out, 'e')
+	if e < 0 {
+		out = append(out, '-')
+		e = -e
+	} else {
+		out = append(out, '+')
+	}
+	if e < 10 {
+		out = append(out, '0')
+	}
+	out = strconv.AppendInt(out, int64(e), 10)
+	return string(out), true, true
 }
 
 func pow10i(n int) int {

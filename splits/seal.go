@@ -161,14 +161,28 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 			return nil, fieldErr("sides", "side %q would get no rows of the %d in table %s%s; change the fractions, cutoff or policies", sd, d.n, spec.Table, why)
 		}
 	}
+	// Seals are computed on another goroutine while the rows are written (both only read
+	// d.digest and a.side); write waits for them before storing them.
+	var tableSeal string
 	var sideSeal []string
-	res.TableSeal, sideSeal = sideSeals(d.digest, a.side, ns)
+	sealed := make(chan struct{})
+	go func() {
+		defer close(sealed)
+		tableSeal, sideSeal = sideSeals(d.digest, a.side, ns)
+	}()
+	waitSeals := func() {
+		<-sealed
+		res.TableSeal = tableSeal
+		for i := range res.Sides {
+			res.Sides[i].Digest = sideSeal[i]
+		}
+	}
 	totalEnts := 0
 	for _, c := range entCount {
 		totalEnts += c
 	}
 	for i, s := range a.sides {
-		ss := SideSummary{Side: s, Position: i + 1, Role: spec.Role(s), Rows: sideRows[i], Digest: sideSeal[i], View: views[i]}
+		ss := SideSummary{Side: s, Position: i + 1, Role: spec.Role(s), Rows: sideRows[i], View: views[i]}
 		if i < len(spec.Sides) && spec.Strategy() != "adopted" {
 			f := spec.Sides[i].Fraction
 			ss.TargetFraction = &f
@@ -206,7 +220,7 @@ func Split(ctx context.Context, conn *sql.Conn, spec *Spec, opts Options) (*Resu
 		}
 		res.Folds = append(res.Folds, fs)
 	}
-	if err := write(ctx, conn, spec, t, d, a, res, opts); err != nil {
+	if err := write(ctx, conn, spec, t, d, a, res, opts, waitSeals); err != nil {
 		return nil, err
 	}
 	res.AuditQueries = auditQueries(spec, t, res)
@@ -246,7 +260,13 @@ func nullInt(p *int) any {
 	return int64(*p)
 }
 
-func write(ctx context.Context, conn *sql.Conn, spec *Spec, t *Table, d *data, a *assignment, res *Result, opts Options) error {
+// write stores the split: ss_split_rows first (while waitSeals' seals are computed), then
+// ss_splits, ss_split_sides with the seals, the views and ss_split_folds.
+func write(ctx context.Context, conn *sql.Conn, spec *Spec, t *Table, d *data, a *assignment, res *Result, opts Options, waitSeals func()) error {
+	if err := writeRows(ctx, conn, spec.Name, d, a, opts.Progress); err != nil {
+		return fmt.Errorf("split %s: %w", spec.Name, err)
+	}
+	waitSeals()
 	groups, _ := json.Marshal(orEmpty(spec.Group))
 	notes, _ := json.Marshal(res.Notes)
 	var timeCol, scheme, folds any
@@ -259,9 +279,6 @@ func write(ctx context.Context, conn *sql.Conn, spec *Spec, t *Table, d *data, a
 	}
 	if _, err := conn.ExecContext(ctx, `INSERT INTO ss_splits(split_name, table_name, strategy, spec_json, seed, run_id, table_rows, assigned_rows, dropped_rows, group_columns, time_column, folds, fold_scheme, table_seal, summary_json) VALUES(?,?,?,?,?,?,?,?,?,?,?,?,?,?,?)`,
 		spec.Name, t.Name, res.Strategy, res.SpecJSON, int64(spec.Seed), opts.RunID, d.n, res.Assigned, d.n-res.Assigned, string(groups), timeCol, folds, scheme, res.TableSeal, string(notes)); err != nil {
-		return fmt.Errorf("split %s: %w", spec.Name, err)
-	}
-	if err := writeRows(ctx, conn, spec.Name, d, a, opts.Progress); err != nil {
 		return fmt.Errorf("split %s: %w", spec.Name, err)
 	}
 	for _, s := range res.Sides {

@@ -105,7 +105,7 @@ var (
 	SharedEntity = &Check{
 		Name:     "shared_entity",
 		Title:    "an entity with rows on more than one side",
-		Doc:      "For each entity column (--entity, by default the split's group columns) every non-NULL value with rows on more than one side, with its rows per side. Rows of one entity (a pipe segment, a customer) are correlated: a model that saw some of them in training scores the rest too well.",
+		Doc:      "For each entity column (--entity, by default the split's group columns) every non-NULL value with rows on more than one side, with its rows per side. When the entity columns are the split's own two or more group columns (the default), they are one entity as the split formed it: rows sharing a value in any of them are one entity (connected components), reported once, named by its first member value (column order, then value). Rows of one entity (a pipe segment, a customer) are correlated: a model that saw some of them in training scores the rest too well.",
 		Requires: []string{"entity"},
 		SQL:      "stock",
 		run:      runSharedEntity,

@@ -10,41 +10,53 @@ import (
 func sortStrings(s []string) { sort.Strings(s) }
 
 // entityGroups groups row indexes by the raw value of one column (NULLs left out), in
-// order of first row; keys are repr strings.
-func (a *audit) entityGroups(col string) ([]string, map[string][]int32) {
+// order of first row; keys are repr strings, groups[k] the rows of order[k] (ascending).
+func (a *audit) entityGroups(col string) ([]string, [][]int32) {
 	c := a.data[col]
-	groups := map[string][]int32{}
+	n := len(a.rowID)
+	gid := make([]int32, n) // group of each row, -1 for NULL
+	idx := make(map[string]int32, n/8+1)
 	var order []string
-	switch c.SQLType {
-	case "TEXT":
-		idx := map[string]int32{}
-		var members [][]int32
-		for i := range a.rowID {
-			if c.null[i] {
-				continue
-			}
-			g, ok := idx[c.str[i]]
+	var size []int32
+	for i := 0; i < n; i++ {
+		if c.null[i] {
+			gid[i] = -1
+			continue
+		}
+		var g int32
+		var ok bool
+		if c.SQLType == "TEXT" {
+			g, ok = idx[c.str[i]]
 			if !ok {
-				g = int32(len(members))
+				g = int32(len(order))
 				idx[c.str[i]] = g
-				members = append(members, nil)
 				order = append(order, "t"+c.str[i])
+				size = append(size, 0)
 			}
-			members[g] = append(members[g], int32(i))
-		}
-		for k, m := range members {
-			groups[order[k]] = m
-		}
-	default:
-		for i := range a.rowID {
-			if c.null[i] {
-				continue
-			}
+		} else {
 			k := c.repr(i)
-			if _, ok := groups[k]; !ok {
+			g, ok = idx[k]
+			if !ok {
+				g = int32(len(order))
+				idx[k] = g
 				order = append(order, k)
+				size = append(size, 0)
 			}
-			groups[k] = append(groups[k], int32(i))
+		}
+		gid[i] = g
+		size[g]++
+	}
+	// One array for every group's rows, cut by the counts.
+	flat := make([]int32, n)
+	groups := make([][]int32, len(order))
+	off := int32(0)
+	for g, m := range size {
+		groups[g] = flat[off : off : off+m]
+		off += m
+	}
+	for i, g := range gid {
+		if g >= 0 {
+			groups[g] = append(groups[g], int32(i))
 		}
 	}
 	return order, groups
@@ -168,8 +180,8 @@ func runSharedEntity(a *audit) error {
 	for _, col := range a.entity {
 		order, groups := a.entityGroups(col)
 		n, rows := 0, 0
-		for _, k := range order {
-			g := groups[k]
+		for gi, k := range order {
+			g := groups[gi]
 			if a.distinctSides(g) < 2 {
 				continue
 			}

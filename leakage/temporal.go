@@ -128,8 +128,8 @@ func runTimeOverlap(a *audit) error {
 	// (b) entities whose histories interleave across sides.
 	for _, col := range a.entity {
 		order, groups := a.entityGroups(col)
-		for _, key := range order {
-			g := groups[key]
+		for gi, key := range order {
+			g := groups[gi]
 			var tmax, hmin timeVal
 			ht, hh := false, false
 			var rows []int32

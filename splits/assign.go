@@ -74,16 +74,36 @@ type progressFn func(done, total int64)
 
 // load reads what spec needs from the table.
 func load(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn) (*data, error) {
-	return loadWhere(ctx, conn, t, spec, progress, "", nil)
+	return loadWhere(ctx, conn, t, spec, progress, nil)
 }
 
-// loadWhere is load restricted by an SQL condition on the table (alias-free) with args.
-func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn, where string, wargs []any) (*data, error) {
-	if where == "" {
-		where = "1"
+// rowFilter keeps the rows whose ss_row is in ids (ascending) and lists the others in added.
+type rowFilter struct {
+	ids   []int64
+	k     int
+	added []int64
+}
+
+func (f *rowFilter) keep(id int64) bool {
+	for f.k < len(f.ids) && f.ids[f.k] < id {
+		f.k++
 	}
+	if f.k < len(f.ids) && f.ids[f.k] == id {
+		return true
+	}
+	f.added = append(f.added, id)
+	return false
+}
+
+// loadWhere is load restricted to the rows filter keeps (all rows when filter is nil). The
+// table is read in ss_row order either way.
+func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn, filter *rowFilter) (*data, error) {
+	where := "1"
+	var wargs []any
 	var total int64
-	if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)+` WHERE `+where, wargs...).Scan(&total); err != nil {
+	if filter != nil {
+		total = int64(len(filter.ids)) // at most that many rows are kept
+	} else if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)).Scan(&total); err != nil {
 		return nil, fmt.Errorf("read %s: %w", t.Name, err)
 	}
 	cols := []string{"ss_row", "ss_digest"}
@@ -168,6 +188,9 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		id, err := asInt64(vals[0], "ss_row")
 		if err != nil {
 			return err
+		}
+		if filter != nil && !filter.keep(id) {
+			return nil
 		}
 		dg, err := asInt64(vals[1], "ss_digest")
 		if err != nil {

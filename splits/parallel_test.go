@@ -1,6 +1,8 @@
 package splits
 
 import (
+	"context"
+	"encoding/json"
 	"math"
 	"math/rand/v2"
 	"runtime"
@@ -133,4 +135,87 @@ func TestTimeOrder_RadixEqualsStableSort(t *testing.T) {
 			t.Fatalf("n=%d: radix time order differs from the stable sort", n)
 		}
 	}
+}
+
+// Verify's report must not depend on the number of cores either (digests in small chunks).
+func TestVerify_SameWithOneOrTwoCores(t *testing.T) {
+	defer func(c, v int) { hashChunk, verifyChunkRows = c, v }(hashChunk, verifyChunkRows)
+	hashChunk, verifyChunkRows = 37, 23
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(12, 800, 100, 1), nil)
+	mustSplit(t, path, Spec{Name: "v", Table: "t", Seed: 5, Folds: 3})
+	exec(t, path, `UPDATE t SET x = x + 1 WHERE ss_row IN (3, 300, 301, 799)`)
+	exec(t, path, `UPDATE t SET ss_digest = 7 WHERE ss_row = 500`)
+	exec(t, path, `DELETE FROM t WHERE ss_row IN (10, 640)`)
+	exec(t, path, `UPDATE ss_split_rows SET side = 'holdout' WHERE split_name = 'v' AND row_id = 20`)
+	appendRows(t, path, "t", genCols, genRows(13, 30, 100, 801))
+	var reps []string
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		rep := verify(t, path, "v")
+		b, _ := json.Marshal(rep)
+		reps = append(reps, string(b))
+	}
+	if reps[0] != reps[1] {
+		t.Errorf("GOMAXPROCS 1 and 2 give different verify reports:\n%s\n%s", reps[0], reps[1])
+	}
+	var rep Report
+	json.Unmarshal([]byte(reps[0]), &rep)
+	if rep.Counts["changed"] != 5 || rep.Counts["removed"] != 2 || rep.Counts["added"] != 30 || rep.Counts["moved"] < 1 {
+		t.Errorf("counts %v, want 5 changed, 2 removed, 30 added, a moved row", rep.Counts)
+	}
+}
+
+// readStored (packed by SQL, odd rows read as stored) gives what the plain column-by-column
+// read gives, for well-formed rows, tampered ones, and when most rows are tampered.
+func TestReadStored_EqualsPlainRead(t *testing.T) {
+	path := newDB(t)
+	makeTable(t, path, "t", genCols, genRows(14, 1200, 100, 1), nil)
+	mustSplit(t, path, Spec{Name: "v", Table: "t", Seed: 5, Time: "day", Folds: 3, Gap: "2d"})
+	mustSplit(t, path, Spec{Name: "w", Table: "t", Seed: 5})
+	same := func(label, name string) {
+		t.Helper()
+		db := openDB(t, path)
+		conn, err := db.Conn(context.Background())
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer conn.Close()
+		ids1, st1, err1 := readStored(context.Background(), conn, name)
+		ids2, st2, err2 := readStoredPlain(context.Background(), conn, name)
+		if err1 != nil || err2 != nil {
+			t.Fatalf("%s: %v / %v", label, err1, err2)
+		}
+		if !slices.Equal(ids1, ids2) || !slices.Equal(st1, st2) {
+			t.Errorf("%s: packed read differs from the plain read", label)
+		}
+		if len(ids1) != 1200 {
+			t.Errorf("%s: %d rows", label, len(ids1))
+		}
+	}
+	same("fresh", "v")
+	same("no folds", "w")
+	exec(t, path, `UPDATE ss_split_rows SET side = 'bogus' WHERE split_name = 'v' AND row_id = 5`)
+	exec(t, path, `UPDATE ss_split_rows SET side = CAST('train' AS BLOB) WHERE split_name = 'v' AND row_id = 6`)
+	exec(t, path, `UPDATE ss_split_rows SET fold = 0 WHERE split_name = 'v' AND row_id = 7`)
+	exec(t, path, `UPDATE ss_split_rows SET fold = 70000, train_from = 2.0 WHERE split_name = 'v' AND row_id = 8`)
+	exec(t, path, `UPDATE ss_split_rows SET side = 12 WHERE split_name = 'v' AND row_id = 9`)
+	exec(t, path, `UPDATE ss_split_rows SET fold = '3' WHERE split_name = 'v' AND row_id = 11`)
+	exec(t, path, `UPDATE ss_split_rows SET train_from = CAST('1' AS BLOB) WHERE split_name = 'v' AND row_id = 12`)
+	same("a few tampered rows", "v")
+	// A fractional fold is an error for both reads (it cannot be a fold number).
+	exec(t, path, `UPDATE ss_split_rows SET fold = 2.5 WHERE split_name = 'v' AND row_id = 10`)
+	{
+		db := openDB(t, path)
+		conn, _ := db.Conn(context.Background())
+		_, _, err1 := readStored(context.Background(), conn, "v")
+		_, _, err2 := readStoredPlain(context.Background(), conn, "v")
+		conn.Close()
+		if err1 == nil || err2 == nil {
+			t.Errorf("fold 2.5: errors %v / %v, want both", err1, err2)
+		}
+	}
+	exec(t, path, `UPDATE ss_split_rows SET side = 'x' || row_id WHERE split_name = 'w'`)
+	same("every row tampered", "w")
 }

@@ -3,11 +3,15 @@ package splits
 import (
 	"context"
 	"database/sql"
+	"database/sql/driver"
 	"errors"
 	"fmt"
 	"slices"
+	"runtime"
 	"sort"
+	"strconv"
 	"strings"
+	"sync"
 
 	"splitsmith/ingest"
 )
@@ -39,6 +43,16 @@ type Report struct {
 // split was sealed, or whose values no longer match its content digest, and every side whose
 // seal digest no longer matches. It writes nothing.
 func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
+	return VerifyWith(ctx, conn, name, VerifyOptions{})
+}
+
+// VerifyOptions are the settings of VerifyWith.
+type VerifyOptions struct {
+	Progress func(done, total int64) // two passes over the table's rows
+}
+
+// VerifyWith is Verify with options.
+func VerifyWith(ctx context.Context, conn *sql.Conn, name string, opts VerifyOptions) (*Report, error) {
 	var table, specJSON, strategy string
 	err := conn.QueryRowContext(ctx, `SELECT table_name, spec_json, strategy FROM ss_splits WHERE split_name = ?`, name).Scan(&table, &specJSON, &strategy)
 	if errors.Is(err, sql.ErrNoRows) {
@@ -59,36 +73,11 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
-	// Stored rows, in row_id order (side names interned).
-	type stored struct {
-		side     string
-		fold, tf int64
-	}
-	var ids []int64
-	var sts []stored
-	intern := map[string]string{}
-	rows, err := conn.QueryContext(ctx, `SELECT row_id, side, coalesce(fold, 0), coalesce(train_from, 0) FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`, name)
+	// Stored rows, in row_id order.
+	ids, sts, err := readStored(ctx, conn, name)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
-	var sideBuf []byte
-	for rows.Next() {
-		var id int64
-		var s stored
-		if err := rows.Scan(&id, &sideBuf, &s.fold, &s.tf); err != nil {
-			rows.Close()
-			return nil, err
-		}
-		sd, ok := intern[string(sideBuf)]
-		if !ok {
-			sd = string(sideBuf)
-			intern[sd] = sd
-		}
-		s.side = sd
-		sts = append(sts, s)
-		ids = append(ids, id)
-	}
-	rows.Close()
 	rep.Rows = len(ids)
 	storedAt := func(id int64) (stored, bool) {
 		k, found := slices.BinarySearch(ids, id)
@@ -97,9 +86,15 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		}
 		return sts[k], true
 	}
-	// Recompute over the rows the split sealed that still exist.
-	where := `ss_row IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?)`
-	d, err := loadWhere(ctx, conn, t, spec, nil, where, []any{name})
+	// Recompute over the rows the split sealed that still exist; the others are added rows.
+	// Progress counts two passes over the table: this one and the content digests.
+	n2 := int64(len(ids))
+	var pass1 progressFn
+	if opts.Progress != nil {
+		pass1 = func(done, _ int64) { opts.Progress(done, 2*n2) }
+	}
+	filter := &rowFilter{ids: ids}
+	d, err := loadWhere(ctx, conn, t, spec, pass1, filter)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
@@ -142,18 +137,15 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 		rep.Changes = append(rep.Changes, Change{Kind: "removed", RowID: ids[k], Side: sts[k].side, Detail: "row sealed in the split is no longer in the table"})
 	}
 	// Added rows.
-	rows, err = conn.QueryContext(ctx, `SELECT ss_row FROM `+quoteIdent(table)+` WHERE ss_row NOT IN (SELECT row_id FROM ss_split_rows WHERE split_name = ?) ORDER BY ss_row`, name)
-	if err != nil {
-		return nil, fmt.Errorf("verify %s: %w", name, err)
-	}
-	for rows.Next() {
-		var id int64
-		rows.Scan(&id)
+	for _, id := range filter.added {
 		rep.Changes = append(rep.Changes, Change{Kind: "added", RowID: id, Detail: "row is in the table but not in the split (added after sealing)"})
 	}
-	rows.Close()
 	// Content digests of current values.
-	changed, cur, err := changedRows(ctx, conn, t)
+	var pass2 progressFn
+	if opts.Progress != nil {
+		pass2 = func(done, total int64) { opts.Progress(n2+done*n2/max(total, 1), 2*n2) }
+	}
+	changed, cur, err := changedRows(ctx, conn, t, pass2)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
@@ -299,48 +291,240 @@ func appendStable(s *Spec) bool {
 	return false
 }
 
-// changedRows lists rows whose stored ss_digest differs from the digest of their current
-// values (ingest's content digest).
-func changedRows(ctx context.Context, conn *sql.Conn, t *Table) ([]Change, []rowDigest, error) {
-	cols := []string{"ss_row", "ss_digest"}
-	for _, c := range t.Columns {
-		cols = append(cols, quoteIdent(c.Name))
+// stored is one row of ss_split_rows as verify compares it (fold and train_from 0 = NULL).
+type stored struct {
+	side     string
+	fold, tf int64
+}
+
+// readStored reads a split's ss_split_rows in row_id order. Well-formed rows (a side of
+// ss_split_sides or '', integer fold and train_from in 1..65535 or NULL) come packed into one
+// integer by SQL, which halves the driver's per-column work; any other row is read again as
+// stored, by itself, and when there are many such rows the whole table is read plainly.
+func readStored(ctx context.Context, conn *sql.Conn, name string) ([]int64, []stored, error) {
+	var names []string
+	r, err := conn.QueryContext(ctx, `SELECT side FROM ss_split_sides WHERE split_name = ? ORDER BY position`, name)
+	if err != nil {
+		return nil, nil, err
 	}
-	rows, err := conn.QueryContext(ctx, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` ORDER BY ss_row`)
+	for r.Next() {
+		var s string
+		if err := r.Scan(&s); err != nil {
+			r.Close()
+			return nil, nil, err
+		}
+		names = append(names, s)
+	}
+	r.Close()
+	if len(names) > 254 {
+		return readStoredPlain(ctx, conn, name)
+	}
+	var b strings.Builder
+	// A fold or train_from outside 1..65535, text or a blob fails BETWEEN; a fractional REAL
+	// makes the sum a REAL, which the reader treats as not packed.
+	b.WriteString(`SELECT row_id, CASE WHEN (fold IS NULL OR fold BETWEEN 1 AND 65535) AND (train_from IS NULL OR train_from BETWEEN 1 AND 65535) THEN (CASE side WHEN '' THEN 0`)
+	for i, n := range names {
+		fmt.Fprintf(&b, " WHEN %s THEN %d", quoteString(n), i+1)
+	}
+	b.WriteString(` END) + 256 * (coalesce(fold, 0) + 65536 * coalesce(train_from, 0)) END FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`)
+	sideOf := append([]string{""}, names...)
+	var ids []int64
+	var sts []stored
+	var odd []int // positions of rows to read as stored
+	const maxOdd = 1000
+	err = rawQuery(ctx, conn, b.String(), []any{name}, func(vals []driver.Value) error {
+		id, err := asInt64(vals[0], "row_id")
+		if err != nil {
+			return err
+		}
+		p, ok := vals[1].(int64)
+		if !ok {
+			if len(odd) == maxOdd {
+				return errManyOdd
+			}
+			odd = append(odd, len(ids))
+		}
+		ids = append(ids, id)
+		sts = append(sts, stored{side: sideOf[p&255], fold: (p >> 8) & 0xffff, tf: p >> 24})
+		return nil
+	})
+	if errors.Is(err, errManyOdd) {
+		return readStoredPlain(ctx, conn, name)
+	}
+	if err != nil {
+		return nil, nil, err
+	}
+	for _, k := range odd {
+		var side any
+		var fold, tf int64
+		if err := conn.QueryRowContext(ctx, `SELECT side, coalesce(fold, 0), coalesce(train_from, 0) FROM ss_split_rows WHERE split_name = ? AND row_id = ?`, name, ids[k]).Scan(&side, &fold, &tf); err != nil {
+			return nil, nil, err
+		}
+		sts[k] = stored{side: sideText(side), fold: fold, tf: tf}
+	}
+	return ids, sts, nil
+}
+
+var errManyOdd = errors.New("many rows not in the packed form")
+
+func sideText(v any) string {
+	switch x := v.(type) {
+	case string:
+		return x
+	case []byte:
+		return string(x)
+	case nil:
+		return ""
+	}
+	return label(v)
+}
+
+// readStoredPlain reads ss_split_rows column by column (side names interned).
+func readStoredPlain(ctx context.Context, conn *sql.Conn, name string) ([]int64, []stored, error) {
+	var ids []int64
+	var sts []stored
+	intern := map[string]string{}
+	rows, err := conn.QueryContext(ctx, `SELECT row_id, side, coalesce(fold, 0), coalesce(train_from, 0) FROM ss_split_rows WHERE split_name = ? ORDER BY row_id`, name)
 	if err != nil {
 		return nil, nil, err
 	}
 	defer rows.Close()
-	vals := make([]any, len(cols))
-	ptrs := make([]any, len(cols))
-	for i := range vals {
-		ptrs[i] = &vals[i]
-	}
-	var id int64 // ss_row is an INTEGER PRIMARY KEY; ss_digest may have been tampered to anything
-	ptrs[0] = &id
-	dg := ingest.NewDigester()
-	var out []Change
-	var all []rowDigest
+	var sideBuf []byte
 	for rows.Next() {
-		if err := rows.Scan(ptrs...); err != nil {
+		var id int64
+		var s stored
+		if err := rows.Scan(&id, &sideBuf, &s.fold, &s.tf); err != nil {
 			return nil, nil, err
 		}
-		dg.Reset()
-		for _, v := range vals[2:] {
-			if err := dg.Value(v); err != nil {
-				return nil, nil, err
-			}
+		sd, ok := intern[string(sideBuf)]
+		if !ok {
+			sd = string(sideBuf)
+			intern[sd] = sd
 		}
-		stored, _ := vals[1].(int64)
-		all = append(all, rowDigest{id, stored})
-		if got := dg.Sum(); got != stored {
-			out = append(out, Change{Kind: "changed", RowID: id, Now: fmt.Sprint(got), Detail: fmt.Sprintf("values no longer match the row's content digest (ss_digest %d, values digest to %d)", stored, got)})
+		s.side = sd
+		sts = append(sts, s)
+		ids = append(ids, id)
+	}
+	return ids, sts, rows.Err()
+}
+
+// changedRows lists rows whose stored ss_digest differs from the digest of their current
+// values (ingest's content digest), and returns every row's stored digest in ss_row order.
+// The reading goroutine hands chunks of rows to digest workers; the changes are put back in
+// row order, so the result does not depend on the number of workers.
+func changedRows(ctx context.Context, conn *sql.Conn, t *Table, progress progressFn) ([]Change, []rowDigest, error) {
+	cols := []string{"ss_row", "ss_digest"}
+	for _, c := range t.Columns {
+		cols = append(cols, quoteIdent(c.Name))
+	}
+	width := len(t.Columns)
+	var total int64
+	if progress != nil {
+		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)).Scan(&total); err != nil {
+			return nil, nil, err
 		}
 	}
-	return out, all, rows.Err()
+	type chunk struct {
+		seq    int
+		ids    []int64
+		stored []int64
+		vals   []driver.Value
+		out    []Change
+		err    error
+	}
+	work := make(chan *chunk, 8)
+	results := make(chan *chunk, 8)
+	workers := max(1, min(runtime.GOMAXPROCS(0)-1, 3))
+	var wg sync.WaitGroup
+	for range workers {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			dg := ingest.NewDigester()
+			for c := range work {
+				for r, id := range c.ids {
+					dg.Reset()
+					for _, v := range c.vals[r*width : (r+1)*width] {
+						if err := dg.Value(v); err != nil && c.err == nil {
+							c.err = err
+						}
+					}
+					if got := dg.Sum(); got != c.stored[r] {
+						c.out = append(c.out, Change{Kind: "changed", RowID: id, Now: strconv.FormatInt(got, 10), Detail: fmt.Sprintf("values no longer match the row's content digest (ss_digest %d, values digest to %d)", c.stored[r], got)})
+					}
+				}
+				c.vals, c.ids, c.stored = nil, nil, nil
+				results <- c
+			}
+		}()
+	}
+	go func() {
+		wg.Wait()
+		close(results)
+	}()
+	var done []*chunk
+	collected := make(chan struct{})
+	go func() {
+		defer close(collected)
+		for c := range results {
+			done = append(done, c)
+		}
+	}()
+	var all []rowDigest
+	seq := 0
+	cur := &chunk{}
+	n := int64(0)
+	send := func() {
+		work <- cur
+		seq++
+		cur = &chunk{seq: seq}
+	}
+	err := rawQuery(ctx, conn, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` ORDER BY ss_row`, nil, func(vals []driver.Value) error {
+		id, err := asInt64(vals[0], "ss_row") // an INTEGER PRIMARY KEY
+		if err != nil {
+			return err
+		}
+		stored, _ := vals[1].(int64) // ss_digest may have been tampered to anything
+		all = append(all, rowDigest{id, stored})
+		cur.ids = append(cur.ids, id)
+		cur.stored = append(cur.stored, stored)
+		for _, v := range vals[2:] {
+			if b, ok := v.([]byte); ok {
+				v = append([]byte(nil), b...)
+			}
+			cur.vals = append(cur.vals, v)
+		}
+		if len(cur.ids) == verifyChunkRows {
+			send()
+		}
+		n++
+		if progress != nil && n%65536 == 0 {
+			progress(n, total)
+		}
+		return nil
+	})
+	if len(cur.ids) > 0 {
+		send()
+	}
+	close(work)
+	<-collected
+	if err != nil {
+		return nil, nil, err
+	}
+	slices.SortFunc(done, func(a, b *chunk) int { return a.seq - b.seq })
+	var out []Change
+	for _, c := range done {
+		if c.err != nil {
+			return nil, nil, c.err
+		}
+		out = append(out, c.out...)
+	}
+	return out, all, nil
 }
 
 type rowDigest struct{ id, digest int64 }
+
+var verifyChunkRows = 2048 // rows per digest job (a variable so tests can make small ones)
 
 // auditQueries are the SQL an auditor replays to check the split by hand (subject
 // "split:NAME"). Each "check" returns no rows while the split holds.

@@ -15,6 +15,7 @@ const verifyHint = "splitsmith verify --db pipes.db --split sound"
 type verifyOptions struct {
 	db, split, format string
 	limit             int
+	progress          io.Writer // where terminal progress goes (stderr); nil for none
 }
 
 func newVerifyCommand(s stdio) *cli.Command {
@@ -43,7 +44,7 @@ Examples:
 			if cc.NArg() > 0 {
 				return usagef(verifyHint, "unexpected argument %q", cc.Args().First())
 			}
-			o := verifyOptions{db: cc.String("db"), split: cc.String("split"), limit: cc.Int("limit")}
+			o := verifyOptions{db: cc.String("db"), split: cc.String("split"), limit: cc.Int("limit"), progress: s.err}
 			var err error
 			if o.format, err = checkChoice(cc, "format", "table", "json"); err != nil {
 				return err
@@ -67,7 +68,12 @@ func runVerify(ctx context.Context, o verifyOptions, w io.Writer) error {
 		return err
 	}
 	defer conn.Close()
-	rep, err := splits.Verify(ctx, conn, o.split)
+	var prog *progress
+	if o.progress != nil {
+		prog = newProgress(o.progress, "verify")
+	}
+	rep, err := splits.VerifyWith(ctx, conn, o.split, splits.VerifyOptions{Progress: prog.Report})
+	prog.Done()
 	if err != nil {
 		return splitErr(err, verifyHint)
 	}

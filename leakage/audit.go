@@ -119,7 +119,8 @@ type column struct {
 	rounded map[int][]string
 	// roundOnly > 0: only rounded[roundOnly] was read (num holds NaN).
 	roundOnly int
-	goRound   bool // roundOnly computed in Go by roundSignificant
+	goRound   bool     // roundOnly computed in Go by roundSignificant
+	ro        []string // rounded[roundOnly] while rows are read (no map update per row)
 }
 
 func (c *column) numeric() bool { return c.SQLType == "INTEGER" || c.SQLType == "REAL" }
@@ -654,8 +655,9 @@ func (a *audit) loadRows() error {
 		spec keySpec
 		name string
 		cols []*column
+		out  []uint64
 	}
-	var streams []stream
+	var streams []*stream
 	a.streamed = map[string][]uint64{}
 	for _, k := range a.stream {
 		ok := true
@@ -672,8 +674,7 @@ func (a *audit) loadRows() error {
 		}
 		if ok {
 			name := a.keySQL(k, "t")
-			streams = append(streams, stream{k, name, a.keyCols(k)})
-			a.streamed[name] = make([]uint64, 0, total)
+			streams = append(streams, &stream{k, name, a.keyCols(k), make([]uint64, 0, total)})
 		}
 	}
 	var kbuf []byte
@@ -720,7 +721,7 @@ func (a *audit) loadRows() error {
 				} else {
 					r = asString(v)
 				}
-				c.rounded[c.roundOnly] = append(c.rounded[c.roundOnly], r)
+				c.ro = append(c.ro, r)
 				continue
 			}
 			c.add(vals[first+i])
@@ -734,7 +735,7 @@ func (a *audit) loadRows() error {
 		for _, st := range streams {
 			var h uint64
 			h, kbuf = rowKey(st.cols, st.spec, len(a.rowID)-1, kbuf)
-			a.streamed[st.name] = append(a.streamed[st.name], h)
+			st.out = append(st.out, h)
 		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)
@@ -744,6 +745,14 @@ func (a *audit) loadRows() error {
 	err := a.readPipelined(sel.String(), process)
 	if err != nil {
 		return fmt.Errorf("read rows of split %s: %w", a.split, err)
+	}
+	for _, c := range cols {
+		if c.roundOnly > 0 {
+			c.rounded[c.roundOnly] = c.ro
+		}
+	}
+	for _, st := range streams {
+		a.streamed[st.name] = st.out
 	}
 	for _, r := range goRounds {
 		c := r.col
@@ -895,7 +904,7 @@ func (c *column) reserve(n int) {
 	case c.roundOnly > 0:
 		c.num = make([]float64, 0, n)
 		c.ints = make([]int64, 0, n)
-		c.rounded[c.roundOnly] = make([]string, 0, n)
+		c.ro = make([]string, 0, n)
 	case c.SQLType == "TEXT":
 		c.str = make([]string, 0, n)
 	default:

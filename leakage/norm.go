@@ -15,8 +15,11 @@ import (
 // with plain SQLite: lower(trim(collapse(x))), where collapse replaces ' ' by ' '||char(1),
 // removes char(1)||' ' and then char(1).
 func NormalizeValue(s string) string {
-	if normalized(s) {
+	switch normalizedState(s) {
+	case isNormal:
 		return s
+	case onlyUpper:
+		return asciiLower(s)
 	}
 	return normalizeFull(s)
 }
@@ -40,28 +43,39 @@ func NormalizeSQL(expr string) string {
 
 // normalized reports whether NormalizeValue leaves s as it is: no tab, line break, \x01 or
 // ASCII capital, no run of spaces and no space at either end (checked in one pass, no copy).
-func normalized(s string) bool {
+func normalized(s string) bool { return normalizedState(s) == isNormal }
+
+const (
+	isNormal  = iota // NormalizeValue(s) == s
+	onlyUpper        // NormalizeValue(s) == asciiLower(s): only ASCII capitals to change
+	needsFull        // spaces, tabs, line breaks or \x01 to change
+)
+
+func normalizedState(s string) int {
 	if s == "" {
-		return true
+		return isNormal
 	}
 	if s[0] == ' ' || s[len(s)-1] == ' ' {
-		return false
+		return needsFull
 	}
+	state := isNormal
 	prevSpace := false
 	for i := 0; i < len(s); i++ {
 		switch c := s[i]; {
 		case c == ' ':
 			if prevSpace {
-				return false
+				return needsFull
 			}
 			prevSpace = true
 			continue
-		case c == '\t' || c == '\n' || c == '\r' || c == 1 || (c >= 'A' && c <= 'Z'):
-			return false
+		case c == '\t' || c == '\n' || c == '\r' || c == 1:
+			return needsFull
+		case c >= 'A' && c <= 'Z':
+			state = onlyUpper
 		}
 		prevSpace = false
 	}
-	return true
+	return state
 }
 
 func asciiLower(s string) string {
@@ -196,18 +210,26 @@ func rowKey(cols []*column, k keySpec, i int, buf []byte) (uint64, []byte) {
 		case c.SQLType == "INTEGER" && k.intDig == 0:
 			var nb [24]byte
 			num := strconv.AppendInt(nb[:0], c.ints[i], 10) // ASCII: one rune per byte
-			buf = append(buf, 'v')
-			buf = strconv.AppendInt(buf, int64(len(num)), 10)
+			buf = append(buf, 'v', byte('0'+len(num)))      // at most 20 digits: one or two
+			if len(num) >= 10 {
+				buf = append(buf[:len(buf)-1], '0'+byte(len(num)/10), '0'+byte(len(num)%10))
+			}
 			buf = append(buf, ':')
 			buf = append(buf, num...)
 			continue
 		case c.SQLType == "INTEGER":
 			s = c.rounded[k.intDig][i]
+		case k.realDig == c.roundOnly && c.ro != nil:
+			s = c.ro[i] // also while the rows are still being read
 		default:
 			s = c.rounded[k.realDig][i]
 		}
 		buf = append(buf, 'v')
-		buf = strconv.AppendInt(buf, int64(utf8.RuneCountInString(s)), 10)
+		if n := utf8.RuneCountInString(s); n < 10 {
+			buf = append(buf, byte('0'+n))
+		} else {
+			buf = strconv.AppendInt(buf, int64(n), 10)
+		}
 		buf = append(buf, ':')
 		buf = append(buf, s...)
 	}

@@ -240,7 +240,9 @@ var pow10f = [23]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 // then decides with 17 digits).
 func roundFast(x float64, digits int) (r string, ok, sure bool) {
 	ax := math.Abs(x)
-	e := int(math.Floor(math.Log10(ax)))
+	// floor(log10 ax) to within one (fixed below): ax is in [2^(e2-1), 2^e2).
+	_, e2 := math.Frexp(ax)
+	e := int(math.Floor(float64(e2-1) * math.Log10E / math.Log2E))
 	var m float64
 	for try := 0; try < 2; try++ {
 		shift := digits - 1 - e

@@ -74,7 +74,7 @@ type progressFn func(done, total int64)
 
 // load reads what spec needs from the table.
 func load(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn) (*data, error) {
-	return loadWhere(ctx, conn, t, spec, progress, nil)
+	return loadWhere(ctx, conn, t, spec, progress, nil, nil)
 }
 
 // rowFilter keeps the rows whose ss_row is in ids (ascending) and lists the others in added.
@@ -96,8 +96,9 @@ func (f *rowFilter) keep(id int64) bool {
 }
 
 // loadWhere is load restricted to the rows filter keeps (all rows when filter is nil). The
-// table is read in ss_row order either way.
-func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn, filter *rowFilter) (*data, error) {
+// table is read in ss_row order either way; tap, when given, also gets every row (kept or
+// not) with all its user values.
+func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progress progressFn, filter *rowFilter, tap *digestTap) (*data, error) {
 	where := "1"
 	var wargs []any
 	var total int64
@@ -183,11 +184,18 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		defer gf.stop()
 	}
 	sent := 0
+	tapAt := len(cols)
+	if tap != nil {
+		cols = append(cols, tap.cols...)
+	}
 	query := `SELECT ` + strings.Join(cols, ", ") + ` FROM ` + quoteIdent(t.Name) + ` WHERE ` + where + ` ORDER BY ss_row`
 	err = rawQuery(ctx, conn, query, wargs, func(vals []driver.Value) error {
 		id, err := asInt64(vals[0], "ss_row")
 		if err != nil {
 			return err
+		}
+		if tap != nil {
+			tap.row(id, vals[1], vals[tapAt:])
 		}
 		if filter != nil && !filter.keep(id) {
 			return nil

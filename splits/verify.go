@@ -48,7 +48,7 @@ func Verify(ctx context.Context, conn *sql.Conn, name string) (*Report, error) {
 
 // VerifyOptions are the settings of VerifyWith.
 type VerifyOptions struct {
-	Progress func(done, total int64) // two passes over the table's rows
+	Progress func(done, total int64) // rows of the table read so far, of all
 }
 
 // VerifyWith is Verify with options.
@@ -87,17 +87,22 @@ func VerifyWith(ctx context.Context, conn *sql.Conn, name string, opts VerifyOpt
 		return sts[k], true
 	}
 	// Recompute over the rows the split sealed that still exist; the others are added rows.
-	// Progress counts two passes over the table: this one and the content digests.
-	n2 := int64(len(ids))
-	var pass1 progressFn
-	if opts.Progress != nil {
-		pass1 = func(done, _ int64) { opts.Progress(done, 2*n2) }
-	}
+	// The same pass checks every row's content digest.
 	filter := &rowFilter{ids: ids}
-	d, err := loadWhere(ctx, conn, t, spec, pass1, filter)
+	tap, err := newDigestTap(ctx, conn, t, opts.Progress)
 	if err != nil {
 		return nil, fmt.Errorf("verify %s: %w", name, err)
 	}
+	defer tap.stop()
+	d, err := loadWhere(ctx, conn, t, spec, nil, filter, tap)
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	changed, err := tap.finish()
+	if err != nil {
+		return nil, fmt.Errorf("verify %s: %w", name, err)
+	}
+	cur := tap.all
 	var a *assignment
 	if d.n > 0 {
 		if a, err = compute(d, spec); err != nil {
@@ -141,14 +146,6 @@ func VerifyWith(ctx context.Context, conn *sql.Conn, name string, opts VerifyOpt
 		rep.Changes = append(rep.Changes, Change{Kind: "added", RowID: id, Detail: "row is in the table but not in the split (added after sealing)"})
 	}
 	// Content digests of current values.
-	var pass2 progressFn
-	if opts.Progress != nil {
-		pass2 = func(done, total int64) { opts.Progress(n2+done*n2/max(total, 1), 2*n2) }
-	}
-	changed, cur, err := changedRows(ctx, conn, t, pass2)
-	if err != nil {
-		return nil, fmt.Errorf("verify %s: %w", name, err)
-	}
 	for _, c := range changed {
 		if x, ok := storedAt(c.RowID); ok {
 			c.Side = x.side
@@ -408,32 +405,45 @@ func readStoredPlain(ctx context.Context, conn *sql.Conn, name string) ([]int64,
 	return ids, sts, rows.Err()
 }
 
-// changedRows lists rows whose stored ss_digest differs from the digest of their current
-// values (ingest's content digest), and returns every row's stored digest in ss_row order.
-// The reading goroutine hands chunks of rows to digest workers; the changes are put back in
-// row order, so the result does not depend on the number of workers.
-func changedRows(ctx context.Context, conn *sql.Conn, t *Table, progress progressFn) ([]Change, []rowDigest, error) {
-	cols := []string{"ss_row", "ss_digest"}
+// digestTap checks the content digest of every row of the table while loadWhere reads it
+// (one pass for both): the reading goroutine hands chunks of rows to digest workers, and the
+// changes are put back in row order, so the result does not depend on the number of workers.
+// The row's user columns are the last len(t.Columns) values of the query.
+type digestTap struct {
+	cols     []string // quoted user columns, appended to the query
+	width    int
+	progress progressFn
+	total, n int64
+	all      []rowDigest // every row's stored digest, in ss_row order
+
+	work, results chan *digestChunk
+	done          []*digestChunk
+	collected     chan struct{}
+	cur           *digestChunk
+	seq           int
+	closed        bool
+}
+
+type digestChunk struct {
+	seq    int
+	ids    []int64
+	stored []int64
+	vals   []driver.Value
+	out    []Change
+	err    error
+}
+
+func newDigestTap(ctx context.Context, conn *sql.Conn, t *Table, progress progressFn) (*digestTap, error) {
+	d := &digestTap{width: len(t.Columns), progress: progress, cur: &digestChunk{},
+		work: make(chan *digestChunk, 8), results: make(chan *digestChunk, 8), collected: make(chan struct{})}
 	for _, c := range t.Columns {
-		cols = append(cols, quoteIdent(c.Name))
+		d.cols = append(d.cols, quoteIdent(c.Name))
 	}
-	width := len(t.Columns)
-	var total int64
 	if progress != nil {
-		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)).Scan(&total); err != nil {
-			return nil, nil, err
+		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)).Scan(&d.total); err != nil {
+			return nil, err
 		}
 	}
-	type chunk struct {
-		seq    int
-		ids    []int64
-		stored []int64
-		vals   []driver.Value
-		out    []Change
-		err    error
-	}
-	work := make(chan *chunk, 8)
-	results := make(chan *chunk, 8)
 	workers := max(1, min(runtime.GOMAXPROCS(0)-1, 3))
 	var wg sync.WaitGroup
 	for range workers {
@@ -441,10 +451,11 @@ func changedRows(ctx context.Context, conn *sql.Conn, t *Table, progress progres
 		go func() {
 			defer wg.Done()
 			dg := ingest.NewDigester()
-			for c := range work {
+			w := d.width
+			for c := range d.work {
 				for r, id := range c.ids {
 					dg.Reset()
-					for _, v := range c.vals[r*width : (r+1)*width] {
+					for _, v := range c.vals[r*w : (r+1)*w] {
 						if err := dg.Value(v); err != nil && c.err == nil {
 							c.err = err
 						}
@@ -454,72 +465,80 @@ func changedRows(ctx context.Context, conn *sql.Conn, t *Table, progress progres
 					}
 				}
 				c.vals, c.ids, c.stored = nil, nil, nil
-				results <- c
+				d.results <- c
 			}
 		}()
 	}
 	go func() {
 		wg.Wait()
-		close(results)
+		close(d.results)
 	}()
-	var done []*chunk
-	collected := make(chan struct{})
 	go func() {
-		defer close(collected)
-		for c := range results {
-			done = append(done, c)
+		defer close(d.collected)
+		for c := range d.results {
+			d.done = append(d.done, c)
 		}
 	}()
-	var all []rowDigest
-	seq := 0
-	cur := &chunk{}
-	n := int64(0)
-	send := func() {
-		work <- cur
-		seq++
-		cur = &chunk{seq: seq}
+	return d, nil
+}
+
+// row takes one row: its ss_row, its ss_digest value as stored and its user values.
+func (d *digestTap) row(id int64, digest driver.Value, vals []driver.Value) {
+	stored, _ := digest.(int64) // ss_digest may have been tampered to anything
+	d.all = append(d.all, rowDigest{id, stored})
+	c := d.cur
+	c.ids = append(c.ids, id)
+	c.stored = append(c.stored, stored)
+	for _, v := range vals {
+		if b, ok := v.([]byte); ok {
+			v = append([]byte(nil), b...)
+		}
+		c.vals = append(c.vals, v)
 	}
-	err := rawQuery(ctx, conn, `SELECT `+strings.Join(cols, ", ")+` FROM `+quoteIdent(t.Name)+` ORDER BY ss_row`, nil, func(vals []driver.Value) error {
-		id, err := asInt64(vals[0], "ss_row") // an INTEGER PRIMARY KEY
-		if err != nil {
-			return err
-		}
-		stored, _ := vals[1].(int64) // ss_digest may have been tampered to anything
-		all = append(all, rowDigest{id, stored})
-		cur.ids = append(cur.ids, id)
-		cur.stored = append(cur.stored, stored)
-		for _, v := range vals[2:] {
-			if b, ok := v.([]byte); ok {
-				v = append([]byte(nil), b...)
-			}
-			cur.vals = append(cur.vals, v)
-		}
-		if len(cur.ids) == verifyChunkRows {
-			send()
-		}
-		n++
-		if progress != nil && n%65536 == 0 {
-			progress(n, total)
-		}
-		return nil
-	})
-	if len(cur.ids) > 0 {
-		send()
+	if len(c.ids) == verifyChunkRows {
+		d.send()
 	}
-	close(work)
-	<-collected
-	if err != nil {
-		return nil, nil, err
+	d.n++
+	if d.progress != nil && d.n%65536 == 0 {
+		d.progress(d.n, d.total)
 	}
-	slices.SortFunc(done, func(a, b *chunk) int { return a.seq - b.seq })
+}
+
+func (d *digestTap) send() {
+	d.work <- d.cur
+	d.seq++
+	d.cur = &digestChunk{seq: d.seq}
+}
+
+// finish waits for the workers and returns the changed rows in row order.
+func (d *digestTap) finish() ([]Change, error) {
+	if d.closed {
+		return nil, errors.New("digest tap finished twice")
+	}
+	if len(d.cur.ids) > 0 {
+		d.send()
+	}
+	d.closed = true
+	close(d.work)
+	<-d.collected
+	slices.SortFunc(d.done, func(a, b *digestChunk) int { return a.seq - b.seq })
 	var out []Change
-	for _, c := range done {
+	for _, c := range d.done {
 		if c.err != nil {
-			return nil, nil, c.err
+			return nil, c.err
 		}
 		out = append(out, c.out...)
 	}
-	return out, all, nil
+	return out, nil
+}
+
+// stop ends the workers when finish was not reached (an error on the way).
+func (d *digestTap) stop() {
+	if !d.closed {
+		d.closed = true
+		close(d.work)
+		<-d.collected
+	}
 }
 
 type rowDigest struct{ id, digest int64 }

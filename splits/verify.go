@@ -6,8 +6,8 @@ import (
 	"database/sql/driver"
 	"errors"
 	"fmt"
-	"slices"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -295,7 +295,7 @@ type stored struct {
 }
 
 // readStored reads a split's ss_split_rows in row_id order. Well-formed rows (a side of
-// ss_split_sides or '', integer fold and train_from in 1..65535 or NULL) come packed into one
+// ss_split_sides or ”, integer fold and train_from in 1..65535 or NULL) come packed into one
 // integer by SQL, which halves the driver's per-column work; any other row is read again as
 // stored, by itself, and when there are many such rows the whole table is read plainly.
 func readStored(ctx context.Context, conn *sql.Conn, name string) ([]int64, []stored, error) {

@@ -58,7 +58,7 @@ func TestSideSeals_EqualSealPerSide(t *testing.T) {
 }
 
 // The assignment tables must not depend on the number of cores: the same splits made with
-// GOMAXPROCS 1 and 2 (hashing in many small chunks) store identical rows.
+// GOMAXPROCS 1, 2 and 4 (hashing and union-find in many small chunks) store identical rows.
 func TestSplit_SameWithOneOrTwoCores(t *testing.T) {
 	defer func(c, g int) { hashChunk, groupChunkRows = c, g }(hashChunk, groupChunkRows)
 	hashChunk, groupChunkRows = 37, 29
@@ -93,9 +93,10 @@ func TestSplit_SameWithOneOrTwoCores(t *testing.T) {
 		}
 		return b.String()
 	}
-	one, two := dump(1), dump(2)
-	if one != two {
-		t.Errorf("GOMAXPROCS 1 and 2 give different split tables")
+	// GOMAXPROCS 4 gives three hashing workers where 1 and 2 give one.
+	one, two, four := dump(1), dump(2), dump(4)
+	if one != two || one != four {
+		t.Errorf("GOMAXPROCS 1, 2 and 4 give different split tables")
 	}
 	if !strings.Contains(one, "|holdout|") || !strings.Contains(one, "fg|") {
 		t.Errorf("dump looks empty:\n%.300s", one)
@@ -151,14 +152,14 @@ func TestVerify_SameWithOneOrTwoCores(t *testing.T) {
 	exec(t, path, `UPDATE ss_split_rows SET side = 'holdout' WHERE split_name = 'v' AND row_id = 20`)
 	appendRows(t, path, "t", genCols, genRows(13, 30, 100, 801))
 	var reps []string
-	for _, procs := range []int{1, 2} {
+	for _, procs := range []int{1, 2, 4} {
 		runtime.GOMAXPROCS(procs)
 		rep := verify(t, path, "v")
 		b, _ := json.Marshal(rep)
 		reps = append(reps, string(b))
 	}
-	if reps[0] != reps[1] {
-		t.Errorf("GOMAXPROCS 1 and 2 give different verify reports:\n%s\n%s", reps[0], reps[1])
+	if reps[0] != reps[1] || reps[0] != reps[2] {
+		t.Errorf("GOMAXPROCS 1, 2 and 4 give different verify reports:\n%s\n%s\n%s", reps[0], reps[1], reps[2])
 	}
 	var rep Report
 	json.Unmarshal([]byte(reps[0]), &rep)

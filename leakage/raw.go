@@ -2,12 +2,12 @@ package leakage
 
 import (
 	"context"
-	"database/sql"
 	"database/sql/driver"
 	"errors"
-	"io"
 	"math"
 	"strconv"
+
+	"splitsmith/ingest"
 )
 
 // The bulk paths (reading a million rows, writing a million finding rows) go through the
@@ -16,47 +16,8 @@ import (
 // database/sql would hand over (int64, float64, string, []byte, nil). Inside fn nothing may use
 // conn itself (database/sql holds the connection's lock).
 
-// rawQuery runs query with args and calls fn with each row's values; vals is reused between
-// rows, and []byte values must be copied to be kept.
-func rawQuery(ctx context.Context, conn *sql.Conn, query string, args []any, fn func(vals []driver.Value) error) error {
-	return conn.Raw(func(dc any) error {
-		qc, ok := dc.(driver.QueryerContext)
-		if !ok {
-			return errors.New("driver connection cannot query with a context")
-		}
-		nargs := make([]driver.NamedValue, len(args))
-		for i, a := range args {
-			nargs[i] = driver.NamedValue{Ordinal: i + 1, Value: a}
-		}
-		rows, err := qc.QueryContext(ctx, query, nargs)
-		if err != nil {
-			return err
-		}
-		closed := false
-		defer func() {
-			if !closed {
-				rows.Close()
-			}
-		}()
-		vals := make([]driver.Value, len(rows.Columns()))
-		for {
-			if err := rows.Next(vals); err != nil {
-				if err == io.EOF {
-					break
-				}
-				return err
-			}
-			if err := fn(vals); err != nil {
-				return err
-			}
-		}
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		closed = true
-		return rows.Close()
-	})
-}
+// rawQuery is ingest.QueryRaw: one row at a time through the driver, vals reused.
+var rawQuery = ingest.QueryRaw
 
 // rawInserter writes rows of `width` values with multi-row INSERT statements of `per` rows
 // through the driver's statement interface (inside conn.Raw).

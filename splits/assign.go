@@ -19,9 +19,10 @@ const (
 	reasonPurge
 	reasonSpan
 	reasonTime
+	reasonAfterUntil
 )
 
-var reasonNames = [...]string{"", "gap", "purge", "span", "time"}
+var reasonNames = [...]string{"", "gap", "purge", "span", "time", "after_until"}
 
 // DataError is bad data in the table (an unparseable time value, NULLs where refused),
 // located by rows.

@@ -72,8 +72,11 @@ type Spec struct {
 	// end reaches the next side's start are purged. Span says what to do with an entity that
 	// spans a boundary: "drop" (default), "earlier" (keep it wholly on the earlier side) or
 	// "entity" (side by the entity's hash; its rows on the wrong side of the cutoff dropped).
+	// Until is the latest plausible time: rows whose time is later are dropped (reason
+	// "after_until") before cutoffs and fractions are computed; an entity's other rows stay.
 	Time     string `json:"time,omitempty" yaml:"time"`
 	Cutoff   string `json:"cutoff,omitempty" yaml:"cutoff"`
+	Until    string `json:"until,omitempty" yaml:"until"`
 	Gap      string `json:"gap,omitempty" yaml:"gap"`
 	GapRows  int    `json:"gap_rows,omitempty" yaml:"gap_rows"`
 	LabelEnd string `json:"label_end,omitempty" yaml:"label_end"`
@@ -123,7 +126,7 @@ func flagFor(field string) string {
 	}
 	f := map[string]string{"name": "--name", "table": "--table", "seed": "--seed", "sides": "--sides", "key": "--key",
 		"stratify": "--stratify", "stratify_mode": "--stratify-mode", "group": "--group", "group_nulls": "--group-nulls",
-		"time": "--time", "cutoff": "--cutoff", "gap": "--gap", "gap_rows": "--gap-rows", "label_end": "--label-end",
+		"time": "--time", "cutoff": "--cutoff", "until": "--until", "gap": "--gap", "gap_rows": "--gap-rows", "label_end": "--label-end",
 		"span": "--span", "time_invalid": "--time-invalid", "folds": "--folds", "test_size": "--test-size", "from_column": "--from-column", "map": "--map",
 		"fold_column": "--fold-column", "train_side": "--train-side", "holdout_side": "--holdout-side", "version": "version", "split": "--split", "side": "--side", "fold": "--fold", "part": "--part", "format": "--format"}[base]
 	if f == "" {
@@ -347,7 +350,7 @@ func (s *Spec) Resolve() error {
 		}
 	}
 	if s.Time == "" {
-		for _, f := range []struct{ field, v string }{{"cutoff", s.Cutoff}, {"gap", s.Gap}, {"label_end", s.LabelEnd}, {"span", s.Span}} {
+		for _, f := range []struct{ field, v string }{{"cutoff", s.Cutoff}, {"until", s.Until}, {"gap", s.Gap}, {"label_end", s.LabelEnd}, {"span", s.Span}} {
 			if f.v != "" {
 				return fieldErr(f.field, "needs --time")
 			}
@@ -407,6 +410,13 @@ func (s *Spec) Resolve() error {
 		}
 		if s.TestSize > 0 && s.Folds == 0 {
 			return fieldErr("test_size", "needs --folds")
+		}
+		if s.Until != "" {
+			if _, ok := parseTimeText(s.Until); !ok {
+				if _, _, ok := timeValue(s.Until, true); !ok {
+					return fieldErr("until", "%q is not a date (2026-12-31), timestamp (2026-12-31T23:59:59Z) or number", s.Until)
+				}
+			}
 		}
 		if s.Gap != "" {
 			if _, err := parseGap(s.Gap, false); err != nil {

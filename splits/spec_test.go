@@ -14,11 +14,12 @@ seed: 7
 sides: train=0.7,holdout=0.3
 group: [segment_id]
 time: inspection_date
+until: 2026-12-31
 gap: 90d
 span: entity
 `
 	listForm := strings.Replace(file, "sides: train=0.7,holdout=0.3", "sides:\n  - {name: train, fraction: 0.7}\n  - {name: holdout, fraction: 0.3}", 1)
-	flags := &Spec{Name: "sound", Table: "pipes", Seed: 7, Sides: Sides{{"train", 0.7}, {"holdout", 0.3}}, Group: []string{"segment_id"}, Time: "inspection_date", Gap: "90d", Span: "entity"}
+	flags := &Spec{Name: "sound", Table: "pipes", Seed: 7, Sides: Sides{{"train", 0.7}, {"holdout", 0.3}}, Group: []string{"segment_id"}, Time: "inspection_date", Until: "2026-12-31", Gap: "90d", Span: "entity"}
 	if err := flags.Resolve(); err != nil {
 		t.Fatal(err)
 	}

@@ -95,11 +95,6 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 	if err != nil {
 		return err
 	}
-	order := timeOrder(d, nil)
-	n := len(order)
-	if n == 0 {
-		return &DataError{Msg: fmt.Sprintf("column %q (--time): no row has a usable time", spec.Time)}
-	}
 	for i := 0; i < d.n; i++ {
 		if d.tBad[i] {
 			a.side[i], a.reason[i] = -1, reasonTime
@@ -107,6 +102,35 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 	}
 	if d.badTimes > 0 {
 		a.notes["time_invalid_rows"] = d.badTimes
+	}
+	var order []int
+	if spec.Until == "" {
+		order = timeOrder(d, nil)
+	} else {
+		// Rows later than --until are implausible: they leave before anything is counted,
+		// so cutoffs, fractions, gaps and spans see only the plausible rows.
+		u, err := untilValue(spec, d.numeric)
+		if err != nil {
+			return err
+		}
+		rows := make([]int, 0, d.n)
+		for i := 0; i < d.n; i++ {
+			switch {
+			case d.tBad[i]:
+			case d.t[i] > u:
+				a.side[i], a.reason[i] = -1, reasonAfterUntil
+			default:
+				rows = append(rows, i)
+			}
+		}
+		order = timeOrder(d, rows)
+	}
+	n := len(order)
+	if n == 0 {
+		if spec.Until != "" {
+			return &DataError{Msg: fmt.Sprintf("column %q (--time): no row has a usable time at or before --until %s", spec.Time, spec.Until)}
+		}
+		return &DataError{Msg: fmt.Sprintf("column %q (--time): no row has a usable time", spec.Time)}
 	}
 	ns := len(spec.Sides)
 	bounds := make([]float64, ns-1) // time at which side i+1 starts
@@ -122,6 +146,11 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 		}
 		if !ok {
 			return fieldErr("cutoff", "%q is not a %s like the values of %q", spec.Cutoff, timeKind(d.numeric), spec.Time)
+		}
+		if spec.Until != "" {
+			if u, _ := untilValue(spec, d.numeric); c > u {
+				return fieldErr("until", "%q is before --cutoff %q: every row of the later side would be dropped", spec.Until, spec.Cutoff)
+			}
 		}
 		bounds[0] = c
 		bpos[0] = sort.Search(n, func(k int) bool { return d.t[order[k]] >= c })
@@ -172,6 +201,22 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 		}
 	}
 	return nil
+}
+
+// untilValue parses spec.Until like the time column's values (Unix seconds, or a number).
+func untilValue(spec *Spec, numeric bool) (float64, error) {
+	var u float64
+	var ok bool
+	if numeric {
+		u, _, ok = timeValue(spec.Until, true)
+		ok = ok && !math.IsNaN(u)
+	} else {
+		u, ok = parseTimeText(spec.Until)
+	}
+	if !ok {
+		return 0, fieldErr("until", "%q is not a %s like the values of %q", spec.Until, timeKind(numeric), spec.Time)
+	}
+	return u, nil
 }
 
 // applySpan resolves entities whose rows fall on more than one side of the time split:

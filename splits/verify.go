@@ -610,6 +610,19 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 		qs = append(qs, AuditQuery{Name: "time_order", Kind: "check",
 			Description: "pairs of sides where an earlier side has a row at or after the first time of a later side (time values compare as stored: ISO text or numbers)",
 			SQL:         fmt.Sprintf(`WITH x AS (SELECT r.side, p.position, min(%[3]s) AS lo, max(%[3]s) AS hi FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id JOIN ss_split_sides AS p ON p.split_name = r.split_name AND p.side = r.side WHERE r.split_name = %[2]s GROUP BY r.side) SELECT a.side, a.hi, b.side, b.lo FROM x AS a JOIN x AS b ON a.position < b.position AND a.hi >= b.lo ORDER BY 1, 3`, T, n, tc)})
+		if spec.Until != "" {
+			// Plain SQL: julianday reads the same ISO dates and timestamps (zones included).
+			later := fmt.Sprintf("julianday(%s) > julianday(%s)", tc, quoteString(spec.Until))
+			for _, c := range t.Columns {
+				if strings.EqualFold(c.Name, spec.Time) && (c.Logical == "INTEGER" || c.Logical == "REAL") {
+					u, _, _ := timeValue(spec.Until, true)
+					later = fmt.Sprintf("%s > %s", tc, strconv.FormatFloat(u, 'g', -1, 64))
+				}
+			}
+			qs = append(qs, AuditQuery{Name: "until", Kind: "check",
+				Description: fmt.Sprintf("rows on a side whose time is after --until %s, and rows dropped as after_until whose time is not after it", spec.Until),
+				SQL:         fmt.Sprintf(`SELECT r.row_id, r.side, r.reason, %[3]s AS time FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND ((r.side <> '' AND %[4]s) OR (r.reason = 'after_until' AND (%[4]s) IS NOT 1)) ORDER BY r.row_id`, T, n, tc, later)})
+		}
 		if spec.FoldScheme() == "rolling" {
 			qs = append(qs, AuditQuery{Name: "rolling_folds", Kind: "check",
 				Description: "rows trained on in the fold that tests them, or trained on at or after a test row of that fold in time",
@@ -617,7 +630,7 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 		}
 	}
 	qs = append(qs, AuditQuery{Name: "dropped_rows", Kind: "report",
-		Description: "rows kept off every side, by reason (gap, purge, span)",
+		Description: "rows kept off every side, by reason (gap, purge, span, time, after_until)",
 		SQL:         fmt.Sprintf(`SELECT reason, count(*) AS rows FROM ss_split_rows WHERE split_name = %s AND side = '' GROUP BY reason ORDER BY reason`, n)})
 	return qs
 }

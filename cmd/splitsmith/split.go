@@ -28,7 +28,7 @@ type splitOptions struct {
 
 // specFlags are the flags that define a split spec (refused together with --spec).
 var specFlags = []string{"table", "name", "sides", "seed", "key", "stratify", "stratify-mode", "group", "group-nulls", "time",
-	"cutoff", "gap", "gap-rows", "label-end", "span", "time-invalid", "folds", "test-size", "from-column", "map", "fold-column", "train-side", "holdout-side"}
+	"cutoff", "until", "gap", "gap-rows", "label-end", "span", "time-invalid", "folds", "test-size", "from-column", "map", "fold-column", "train-side", "holdout-side"}
 
 func newSplitCommand(s stdio) *cli.Command {
 	return &cli.Command{
@@ -50,6 +50,7 @@ STRATEGIES
    --group      every row of an entity on one side; several columns join rows sharing a
                 value in any of them (connected components); --group-nulls own|refuse
    --time       the latest period is held out (by --cutoff, or the fractions in time order);
+                --until TIME first drops rows later than TIME (implausible future dates);
                 --gap DURATION (30d, 12h) or --gap-rows N drops earlier rows just before it;
                 --label-end COL purges rows whose label reaches into the later period;
                 with --group, --span drop|earlier|entity handles an entity across the cutoff
@@ -82,6 +83,7 @@ Examples:
 			&cli.StringFlag{Name: "group-nulls", Usage: "`POLICY` for rows whose group values are all NULL: own (default, own entity) or refuse"},
 			&cli.StringFlag{Name: "time", Usage: "time `COL` (DATE, TIMESTAMP or number): hold out the latest period"},
 			&cli.StringFlag{Name: "cutoff", Usage: "`TIME` at which the later side starts (default: by the fractions)"},
+			&cli.StringFlag{Name: "until", Usage: "latest plausible `TIME`: rows whose time is later are dropped (reason after_until) before cutoffs and fractions"},
 			&cli.StringFlag{Name: "gap", Usage: "`DURATION` before each cutoff whose rows are dropped (30d, 12h, 1w; a number for a numeric time)"},
 			&cli.IntFlag{Name: "gap-rows", Usage: "drop the last `N` rows before each cutoff (or test block) instead"},
 			&cli.StringFlag{Name: "label-end", Usage: "`COL` holding when each row's label became known (purge)"},
@@ -148,7 +150,7 @@ func columnList(cc *cli.Context, flag string) ([]string, error) {
 func specFromFlags(cc *cli.Context) (*splits.Spec, error) {
 	sp := &splits.Spec{Version: splits.SpecVersion, Table: cc.String("table"), Name: cc.String("name"), Seed: cc.Uint64("seed"),
 		Stratify: cc.String("stratify"), StratifyMode: cc.String("stratify-mode"), GroupNulls: cc.String("group-nulls"),
-		Time: cc.String("time"), Cutoff: cc.String("cutoff"), Gap: cc.String("gap"), GapRows: cc.Int("gap-rows"),
+		Time: cc.String("time"), Cutoff: cc.String("cutoff"), Until: cc.String("until"), Gap: cc.String("gap"), GapRows: cc.Int("gap-rows"),
 		LabelEnd: cc.String("label-end"), Span: cc.String("span"), TimeInvalid: cc.String("time-invalid"), Folds: cc.Int("folds"), TestSize: cc.Int("test-size"),
 		FromColumn: cc.String("from-column"), FoldColumn: cc.String("fold-column"),
 		TrainSide: cc.String("train-side"), HoldoutSide: cc.String("holdout-side")}
@@ -343,7 +345,7 @@ func sortedKeys(m map[string]int) []string {
 func demoSplitStep(ctx context.Context, w io.Writer, db, dir string) error {
 	s := stdio{in: strings.NewReader(""), out: io.Discard, err: io.Discard}
 	sound := []string{"--sides", "train=0.7,holdout=0.3", "--group", "segment_id", "--time", "inspection_date",
-		"--gap", "90d", "--span", "entity", "--time-invalid", "drop"}
+		"--until", "2026-12-31", "--gap", "90d", "--span", "entity", "--time-invalid", "drop"}
 	steps := []struct {
 		name string
 		args []string
@@ -374,7 +376,7 @@ func demoSplitStep(ctx context.Context, w io.Writer, db, dir string) error {
 		}
 		how := "random by row content"
 		if name == "sound" {
-			how = "grouped by segment_id, time-ordered by inspection_date, 90-day gap"
+			how = "grouped by segment_id, time-ordered by inspection_date until 2026-12-31, 90-day gap"
 		}
 		fmt.Fprintf(w, "split    %s (%s; details: %s):", name, how, filepath.Join(dir, "split_"+name+".txt"))
 		for _, sd := range r.Sides {

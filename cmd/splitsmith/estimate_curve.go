@@ -707,9 +707,9 @@ func demoEstimateStep(ctx context.Context, w io.Writer, db, dir string) error {
 		lab := func(c float64) string { return estimate.CapacityLabel(r.Model, c) }
 		switch {
 		case r.BestNStar == nil && len(unsettled) > 0:
-			fmt.Fprintf(w, "no capacity tried is shown to reach %s %s; more capacity or better features might.", r.Metric, target)
+			fmt.Fprintf(w, "No capacity tried is shown to reach %s %s; more capacity or better features might.", r.Metric, target)
 		case r.BestNStar == nil:
-			fmt.Fprintf(w, "no capacity tried reaches %s %s; more data will not get there, more capacity or better features might.", r.Metric, target)
+			fmt.Fprintf(w, "No capacity tried reaches %s %s; more data will not get there, more capacity or better features might.", r.Metric, target)
 		case r.BestNStar.Method == "measured" || r.BestNStar.Est <= float64(r.TrainRows):
 			fmt.Fprintf(w, "%s %s is within reach with the %d training rows in hand (%s, from about %.0f rows).", r.Metric, target, r.TrainRows, lab(*r.BestCapacity), math.Ceil(r.BestNStar.Est))
 		default:

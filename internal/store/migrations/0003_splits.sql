@@ -10,7 +10,7 @@ CREATE TABLE ss_splits (
   run_id        INTEGER NOT NULL REFERENCES ss_runs(run_id),
   table_rows    INTEGER NOT NULL,-- rows of the table when the split was made
   assigned_rows INTEGER NOT NULL,-- rows on a side
-  dropped_rows  INTEGER NOT NULL,-- rows with side '' (gap, purge, span)
+  dropped_rows  INTEGER NOT NULL,-- rows with side '' (gap, purge, span, time, after_until)
   group_columns TEXT NOT NULL DEFAULT '[]', -- JSON array (also in spec_json.group)
   time_column   TEXT,            -- also spec_json.time
   folds         INTEGER,         -- K, or NULL without folds
@@ -42,7 +42,7 @@ CREATE TABLE ss_split_rows (
   side       TEXT NOT NULL,           -- side name, '' when dropped
   fold       INTEGER,                 -- 1..K (the fold whose test part holds the row), NULL without folds
   train_from INTEGER,                 -- rolling folds: first fold whose training part holds the row
-  reason     TEXT NOT NULL DEFAULT '',-- why dropped: gap | purge | span ('' when on a side)
+  reason     TEXT NOT NULL DEFAULT '',-- why dropped: gap | purge | span | time | after_until ('' when on a side)
   PRIMARY KEY (split_name, row_id)
 ) WITHOUT ROWID;
 

@@ -99,6 +99,14 @@ type Result struct {
 	// HorizonN (NStar.Est is then still the fitted value, or +Inf past MaxNStar); such a
 	// target counts as not reachable with this capacity.
 	NStarBeyondHorizon bool
+	// Band is the pointwise bootstrap band of the chosen curve: at BandPoints log-spaced
+	// sizes from the smallest measured size to BandEnd(r, Options.At), the percentile interval
+	// (at Level) of the bootstrap refits' predicted error. nil when there are no bootstrap
+	// refits. It is derived, so it is not stored in the database.
+	Band []BandPoint
+	// bootParams are the parameters of the kept bootstrap refits, in draw order, so BandOver
+	// can give the band over another range without refitting (nil on a decoded Result).
+	bootParams [][]float64
 }
 
 // MaxFlatDeltaAIC: the flat family is a candidate only when its AIC is within 10 of the best
@@ -307,7 +315,7 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 		return s
 	}
 	est := stats(res.Best.Params)
-	boot, used := bootstrapStats(fam, groups, data, res.Best, mode, o, stats)
+	boot, bootParams, used := bootstrapStats(fam, groups, data, res.Best, mode, o, stats)
 	jack := jackknifeStats(fam, groups, data, res.Best, mode, stats)
 	res.Bootstrap = used
 	iv := func(k int) Interval {
@@ -349,6 +357,10 @@ func Extrapolate(points []Point, opts *Options) (*Result, error) {
 			return nil, err
 		}
 		res.Gap = gd
+	}
+	if used > 0 {
+		res.bootParams = bootParams
+		res.Band = res.BandOver(res.Sizes[0], BandEnd(res, o.At), BandPoints)
 	}
 	res.Verdict = verdict(res, o)
 	return res, nil
@@ -704,10 +716,12 @@ func NStarNumeric(f func(n float64) float64, T float64) float64 {
 // by sqrt(R/(R−1)), Davison & Hinkley 1997, Bootstrap Methods, §3.2), otherwise over the fit's weighted
 // residuals, inflated by sqrt(m/(m−k)) for the degrees of freedom the fit used. Draws run in
 // parallel; each draw has its own PCG stream (seed, draw), so results do not depend on
-// scheduling. Draws whose refit fails are dropped.
-func bootstrapStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode string, o Options, stats func([]float64) [3]float64) ([][3]float64, int) {
+// scheduling. Draws whose refit fails are dropped. It returns the statistics and the
+// parameters of the kept draws, in draw order, and how many were kept.
+func bootstrapStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode string, o Options, stats func([]float64) [3]float64) ([][3]float64, [][]float64, int) {
 	B := o.Bootstrap
 	out := make([][3]float64, B)
+	params := make([][]float64, B)
 	okv := make([]bool, B)
 	m := len(d.n)
 	k := len(fam.Params)
@@ -756,6 +770,7 @@ func bootstrapStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode
 				fit, err := fitFamily(fam, dd, best.Params)
 				if err == nil {
 					out[b] = stats(fit.Params)
+					params[b] = fit.Params
 					okv[b] = true
 				}
 				if o.Progress != nil {
@@ -766,12 +781,14 @@ func bootstrapStats(fam *Family, groups []sizeGroup, d curveData, best Fit, mode
 	}
 	wg.Wait()
 	kept := out[:0]
+	keptParams := params[:0]
 	for b := range out {
 		if okv[b] {
 			kept = append(kept, out[b])
+			keptParams = append(keptParams, params[b])
 		}
 	}
-	return kept, len(kept)
+	return kept, keptParams, len(kept)
 }
 
 // jackknifeStats recomputes the statistics leaving out one measurement at a time (mode

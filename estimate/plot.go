@@ -3,7 +3,8 @@ package estimate
 // Learning-curve plots (gonum.org/v1/plot): holdout error (filled markers, with the range over
 // repeats as error bars) and training error (hollow markers) versus training size on log
 // axes, one colour per capacity; each capacity's fitted curve solid over the measured sizes and
-// dashed where it extrapolates; the asymptote's confidence interval as a shaded band; the
+// dashed where it extrapolates; its pointwise bootstrap confidence band shaded in the same
+// colour (the asymptote's interval as a strip when there is no band); the
 // target as a grey horizontal line with each reachable n* marked and its interval drawn on it.
 
 import (
@@ -100,7 +101,10 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 	if rep != nil {
 		model = rep.Model
 	}
-	bandShown := false
+	bandShown, stripShown := false, false
+	// bands go under every capacity's points and curves
+	var under, over []plot.Plotter
+	add := func(ps ...plot.Plotter) { over = append(over, ps...) }
 	for i, c := range caps {
 		col := palette[i%len(palette)]
 		pts := byCap[c]
@@ -145,7 +149,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				return nil, err
 			}
 			eb.LineStyle.Color = col
-			p.Add(sc, eb)
+			add(sc, eb)
 			p.Legend.Add(name, sc)
 		}
 		if len(train) > 0 {
@@ -154,7 +158,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				return nil, err
 			}
 			sc.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(2.5), Shape: draw.RingGlyph{}}
-			p.Add(sc)
+			add(sc)
 			if i == 0 {
 				p.Legend.Add("hollow: training error", sc)
 			}
@@ -180,7 +184,7 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				return nil, err
 			}
 			l.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1.2)}
-			p.Add(l)
+			add(l)
 		}
 		if xy := curve(nMax, xEnd); len(xy) > 1 {
 			l, err := plotter.NewLine(xy)
@@ -188,24 +192,38 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				return nil, err
 			}
 			l.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(1.2), Dashes: []vg.Length{vg.Points(4), vg.Points(3)}}
-			p.Add(l)
+			add(l)
 		}
-		as := cr.Result.Asymptote
-		// an asymptote the data do not identify gets no band: it would look like a finding
-		if as.Method != "none" && !cr.Result.AsymptoteUnidentified && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
+		// the pointwise bootstrap band around the curve; the asymptote's interval as a strip
+		// only when there is no band (an asymptote the data do not identify gets no strip:
+		// it would look like a finding)
+		bp := bandFor(cr.Result, nMin, xEnd)
+		if band, err := bandPolygon(bp, measMin/20, col); err != nil {
+			return nil, err
+		} else if band != nil {
+			under = append(under, band)
+			for _, b := range bp { // show the band's lower edge down to half the smallest measurement
+				if b.Lo > 0 {
+					yMin = math.Min(yMin, math.Max(b.Lo, measMin/2))
+				}
+			}
+			if !bandShown {
+				p.Legend.Add(fmt.Sprintf("%g%% band (bootstrap)", 100*cr.Result.Level), band)
+				bandShown = true
+			}
+		} else if as := cr.Result.Asymptote; as.Method != "none" && !cr.Result.AsymptoteUnidentified && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
 			lo := math.Max(as.Lo, yMin/2)
 			if lo < as.Hi {
 				band, err := plotter.NewPolygon(plotter.XYs{{X: nMin, Y: lo}, {X: xEnd, Y: lo}, {X: xEnd, Y: as.Hi}, {X: nMin, Y: as.Hi}})
 				if err != nil {
 					return nil, err
 				}
-				r, g, b, _ := col.RGBA()
-				band.Color = color.NRGBA{R: uint8(r >> 8), G: uint8(g >> 8), B: uint8(b >> 8), A: 40}
+				band.Color = translucent(col)
 				band.LineStyle.Width = 0
-				p.Add(band)
-				if !bandShown {
+				under = append(under, band)
+				if !stripShown {
 					p.Legend.Add("asymptote interval (shaded)", band)
-					bandShown = true
+					stripShown = true
 				}
 				yMin = math.Min(yMin, lo)
 			}
@@ -216,18 +234,20 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 				return nil, err
 			}
 			mk.GlyphStyle = draw.GlyphStyle{Color: col, Radius: vg.Points(4), Shape: draw.CrossGlyph{}}
-			p.Add(mk)
+			add(mk)
 			if ns.Lo > 0 && !math.IsInf(ns.Hi, 0) {
 				seg, err := plotter.NewLine(plotter.XYs{{X: math.Max(ns.Lo, nMin), Y: rep.Target}, {X: math.Min(ns.Hi, xEnd), Y: rep.Target}})
 				if err != nil {
 					return nil, err
 				}
 				seg.LineStyle = draw.LineStyle{Color: col, Width: vg.Points(3)}
-				p.Add(seg)
+				add(seg)
 			}
 			p.Legend.Add(fmt.Sprintf("n* ≈ %.0f (%s)", math.Ceil(ns.Est), name), mk)
 		}
 	}
+	p.Add(under...)
+	p.Add(over...)
 	if rep != nil && rep.Target > 0 {
 		l, err := plotter.NewLine(plotter.XYs{{X: nMin, Y: rep.Target}, {X: xEnd, Y: rep.Target}})
 		if err != nil {
@@ -244,6 +264,40 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 	p.X.Min, p.X.Max = nMin/1.3, xEnd*1.1
 	p.Add(plotter.NewGrid())
 	return p, nil
+}
+
+// translucent is col at alpha 40/255, for shaded bands.
+func translucent(col color.Color) color.Color {
+	r, g, b, _ := col.RGBA()
+	return color.NRGBA{R: uint8(r >> 8), G: uint8(g >> 8), B: uint8(b >> 8), A: 40}
+}
+
+// bandPolygon is a translucent filled polygon of colour col between the band's lower and
+// upper ends (lower ends clamped at floor > 0 for the log axis; sizes whose upper end is not
+// above floor, or not finite, left out); nil when fewer than two sizes remain.
+func bandPolygon(band []BandPoint, floor float64, col color.Color) (*plotter.Polygon, error) {
+	var upper, lower plotter.XYs
+	for _, b := range band {
+		if math.IsNaN(b.Lo) || math.IsNaN(b.Hi) || math.IsInf(b.Hi, 0) || math.IsInf(b.Lo, 0) || !(b.Hi > floor) {
+			continue
+		}
+		upper = append(upper, plotter.XY{X: b.N, Y: b.Hi})
+		lower = append(lower, plotter.XY{X: b.N, Y: math.Max(b.Lo, floor)})
+	}
+	if len(upper) < 2 {
+		return nil, nil
+	}
+	ring := append(plotter.XYs{}, upper...)
+	for i := len(lower) - 1; i >= 0; i-- {
+		ring = append(ring, lower[i])
+	}
+	pg, err := plotter.NewPolygon(ring)
+	if err != nil {
+		return nil, err
+	}
+	pg.Color = translucent(col)
+	pg.LineStyle.Width = 0
+	return pg, nil
 }
 
 // logTicks labels 1, 2 and 5 times each power of ten (minor ticks at the other integers), so

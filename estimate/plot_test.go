@@ -46,7 +46,7 @@ func TestPlotCurves_DeterministicSVG(t *testing.T) {
 	if !bytes.Equal(a, b) {
 		t.Error("two renderings differ")
 	}
-	for _, want := range []string{"wall loss on split sound", "target 0.4", "degree 2"} {
+	for _, want := range []string{"wall loss on split sound", "target 0.4", "degree 2", "95% band (bootstrap)"} {
 		if !strings.Contains(string(a), want) {
 			t.Errorf("SVG lacks %q", want)
 		}

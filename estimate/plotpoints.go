@@ -13,8 +13,9 @@ import (
 
 // PlotPoints draws an Extrapolate result for user-supplied points (estimate points --plot):
 // the mean holdout error per size with the range over repeats, the mean training error when
-// given (hollow), the chosen curve solid over the measured sizes and dashed beyond, the
-// target as a grey line with n* and its interval marked, on log axes. Save it with SavePlot.
+// given (hollow), the chosen curve solid over the measured sizes and dashed beyond with its
+// pointwise bootstrap band shaded (Result.Band's level), the target as a grey line with n*
+// and its interval marked, on log axes. Save it with SavePlot.
 func PlotPoints(points, train []Point, res *Result, target, at float64, title string) (*plot.Plot, error) {
 	if res == nil || len(res.Sizes) == 0 {
 		return nil, fmt.Errorf("plot: no result")
@@ -30,6 +31,23 @@ func PlotPoints(points, train []Point, res *Result, target, at float64, title st
 	blue := plotColor(0x1f, 0x77, 0xb4)
 	orange := plotColor(0xff, 0x7f, 0x0e)
 	grey := plotColor(0x80, 0x80, 0x80)
+	nMin, xEnd := res.Sizes[0], BandEnd(res, at)
+	nMax := res.Sizes[len(res.Sizes)-1]
+	// the pointwise bootstrap band, drawn first so it lies under everything else (lower edge
+	// clamped at a tenth of the smallest measured mean error, for the log axis)
+	measMin := math.Inf(1)
+	for _, v := range res.MeanErr {
+		if v > 0 {
+			measMin = math.Min(measMin, v)
+		}
+	}
+	band, err := bandPolygon(bandFor(res, nMin, xEnd), measMin/10, blue)
+	if err != nil {
+		return nil, err
+	}
+	if band != nil {
+		p.Add(band)
+	}
 
 	groups, err := groupPoints(points, "point")
 	if err != nil {
@@ -89,14 +107,6 @@ func PlotPoints(points, train []Point, res *Result, target, at float64, title st
 			p.Legend.Add("training error", sc)
 		}
 	}
-	nMin, nMax := res.Sizes[0], res.Sizes[len(res.Sizes)-1]
-	xEnd := 4 * nMax
-	if at > xEnd {
-		xEnd = at
-	}
-	if res.NStar != nil && !math.IsInf(res.NStar.Est, 0) && res.NStar.Est < 1000*nMax {
-		xEnd = math.Max(xEnd, 1.2*math.Min(res.NStar.Hi, 1000*nMax))
-	}
 	curve := func(a, b float64) plotter.XYs {
 		var xy plotter.XYs
 		for i := 0; i <= 60; i++ {
@@ -125,6 +135,9 @@ func PlotPoints(points, train []Point, res *Result, target, at float64, title st
 		l.Dashes = []vg.Length{vg.Points(4), vg.Points(3)}
 		p.Add(l)
 		p.Legend.Add("extrapolation", l)
+	}
+	if band != nil {
+		p.Legend.Add(fmt.Sprintf("%g%% band (bootstrap)", 100*res.Level), band)
 	}
 	if target > 0 {
 		l, err := plotter.NewLine(plotter.XYs{{X: nMin, Y: target}, {X: xEnd, Y: target}})

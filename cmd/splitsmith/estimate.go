@@ -360,6 +360,9 @@ func pointsJSON(subject string, npts int, res *estimate.Result, o *estimate.Opti
 		out["reachable"] = res.Reachable
 		out["nstar_beyond_horizon"] = res.NStarBeyondHorizon
 	}
+	if res.Band != nil {
+		out["band"] = res.Band
+	}
 	if res.AtErr != nil {
 		out["at"] = o.At
 		out["at_error"] = res.AtErr

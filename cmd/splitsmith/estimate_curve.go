@@ -276,7 +276,9 @@ type curveCapacity struct {
 	HorizonN            float64      `json:"horizon_n,omitempty"`
 	NStarBeyondHorizon  *bool        `json:"nstar_beyond_horizon,omitempty"`
 	GapBySize           []curveGapAt `json:"gap_by_size,omitempty"`
-	res                 *estimate.Result
+	// Band is the chosen curve's pointwise bootstrap band (estimate.Result.Band).
+	Band []estimate.BandPoint `json:"band,omitempty"`
+	res  *estimate.Result
 }
 
 // curveGapAt is the train–holdout gap at one size (a JSON-safe estimate.GapAt).
@@ -354,6 +356,7 @@ func measureCurves(ctx context.Context, tx *store.Tx, o curveOptions, prog *prog
 				}
 			}
 			cc.res, cc.Flat, cc.AsymptoteLoAtBound, cc.HorizonN = r, r.Flat, r.AsymptoteLoAtBound, r.HorizonN
+			cc.Band = r.Band
 			if a.Method != "none" {
 				id := !r.AsymptoteUnidentified
 				cc.AsymptoteIdentified = &id

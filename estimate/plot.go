@@ -207,8 +207,8 @@ func PlotCurves(points []CurvePoint, rep *SweepReport, po PlotOptions) (*plot.Pl
 					yMin = math.Min(yMin, math.Max(b.Lo, measMin/2))
 				}
 			}
-			if !bandShown {
-				p.Legend.Add(fmt.Sprintf("%g%% band (bootstrap)", 100*cr.Result.Level), band)
+			if !bandShown { // one legend entry for every capacity's band, in neutral grey
+				p.Legend.Add(fmt.Sprintf("%g%% band (bootstrap)", 100*cr.Result.Level), bandSwatch{})
 				bandShown = true
 			}
 		} else if as := cr.Result.Asymptote; as.Method != "none" && !cr.Result.AsymptoteUnidentified && as.Hi > 0 && !math.IsInf(as.Hi, 0) {
@@ -298,6 +298,14 @@ func bandPolygon(band []BandPoint, floor float64, col color.Color) (*plotter.Pol
 	pg.Color = translucent(col)
 	pg.LineStyle.Width = 0
 	return pg, nil
+}
+
+// bandSwatch is the legend's thumbnail for the bands: a translucent grey box.
+type bandSwatch struct{}
+
+func (bandSwatch) Thumbnail(c *draw.Canvas) {
+	pts := []vg.Point{{X: c.Min.X, Y: c.Min.Y}, {X: c.Min.X, Y: c.Max.Y}, {X: c.Max.X, Y: c.Max.Y}, {X: c.Max.X, Y: c.Min.Y}}
+	c.FillPolygon(color.NRGBA{R: 0x60, G: 0x60, B: 0x60, A: 70}, c.ClipPolygonY(pts))
 }
 
 // logTicks labels 1, 2 and 5 times each power of ten (minor ticks at the other integers), so

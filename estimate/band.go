@@ -3,6 +3,10 @@ package estimate
 import (
 	"encoding/json"
 	"math"
+	"runtime"
+	"slices"
+	"sync"
+	"sync/atomic"
 )
 
 // BandPoint is one size of a curve's pointwise confidence band: Lo and Hi are the percentile
@@ -56,18 +60,38 @@ func (r *Result) BandOver(a, b float64, k int) []BandPoint {
 		return nil
 	}
 	out := make([]BandPoint, k)
-	pred := make([]float64, len(r.bootParams))
-	for j := range out {
-		n := a * math.Pow(b/a, float64(j)/float64(k-1))
-		if j == k-1 {
-			n = b
-		}
-		for i, p := range r.bootParams {
-			pred[i] = fam.F(n, p)
-		}
-		iv := PercentileInterval(0, pred, r.Level)
-		out[j] = BandPoint{N: n, Lo: iv.Lo, Hi: iv.Hi}
+	q := (1 - r.Level) / 2
+	// sizes are independent, so they are shared out over the cores (each size's result
+	// depends only on the refits: the band does not depend on scheduling)
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range min(runtime.GOMAXPROCS(0), k) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			pred := make([]float64, 0, len(r.bootParams))
+			for {
+				j := int(next.Add(1) - 1)
+				if j >= k {
+					return
+				}
+				n := a * math.Pow(b/a, float64(j)/float64(k-1))
+				if j == k-1 {
+					n = b
+				}
+				pred = pred[:0]
+				for _, p := range r.bootParams {
+					if v := fam.F(n, p); !math.IsNaN(v) {
+						pred = append(pred, v)
+					}
+				}
+				// the percentile interval (as PercentileInterval), without its copy
+				slices.Sort(pred)
+				out[j] = BandPoint{N: n, Lo: quantileSorted(pred, q), Hi: quantileSorted(pred, 1-q)}
+			}
+		}()
 	}
+	wg.Wait()
 	return out
 }
 

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"math"
+	"math/rand/v2"
 	"reflect"
 	"runtime"
 	"strings"
@@ -129,5 +130,21 @@ func TestPlotPoints_Band(t *testing.T) {
 	}
 	if !strings.Contains(a, "95% band (bootstrap)") {
 		t.Error("legend lacks the band")
+	}
+}
+
+// BenchmarkBandOver is the cost of the band from 1000 kept refits, to compare with
+// BenchmarkExtrapolate (which includes it) in the same run.
+func BenchmarkBandOver(b *testing.B) {
+	rng := rand.New(rand.NewPCG(3, 3))
+	pts := pow3Points(rng, geomSizes(200, 8, 2), 5, 0.1, 2, 0.5, 0.002)
+	res, err := Extrapolate(pts, &Options{Target: 0.12, At: 100000})
+	if err != nil {
+		b.Fatal(err)
+	}
+	end := BandEnd(res, 100000)
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		res.BandOver(res.Sizes[0], end, BandPoints)
 	}
 }

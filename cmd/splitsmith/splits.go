@@ -148,14 +148,27 @@ func specSummary(sp *splits.Spec) string {
 	}
 	add("key", strings.Join(sp.Key, ","))
 	add("stratify", sp.Stratify)
+	if sp.Stratify != "" && sp.StratifyMode != "exact" {
+		add("stratify-mode", sp.StratifyMode)
+	}
 	add("group", strings.Join(sp.Group, ","))
+	if sp.GroupNulls != "own" {
+		add("group-nulls", sp.GroupNulls)
+	}
 	add("time", sp.Time)
 	add("cutoff", sp.Cutoff)
+	add("until", sp.Until)
 	add("gap", sp.Gap)
 	if sp.GapRows > 0 {
 		add("gap-rows", fmt.Sprint(sp.GapRows))
 	}
 	add("label-end", sp.LabelEnd)
+	if sp.Time != "" && sp.TimeInvalid != "refuse" {
+		add("time-invalid", sp.TimeInvalid)
+	}
+	if sp.TestSize > 0 {
+		add("test-size", fmt.Sprint(sp.TestSize))
+	}
 	if len(sp.Group) > 0 && sp.Time != "" {
 		add("span", sp.Span)
 	}

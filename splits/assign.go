@@ -10,6 +10,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 )
 
 // Reasons a row is dropped (side ”).
@@ -171,13 +172,31 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 	// The default key (the content digest) is hashed on another goroutine while rows are
 	// still being read: chunks of digests go to hashDigests as they fill. Each u[i] is a
 	// pure function of digest[i], so the result does not depend on scheduling.
-	hashDefault := len(keyIdx) == 0
+	// The time strategy never reads u (its sides, rolling folds, gap and purge come from the
+	// times), so it is not computed there.
+	needU := spec.Strategy() != "time"
+	hashDefault := len(keyIdx) == 0 && needU
 	var hj *hashJobs
+	d.rowID = make([]int64, 0, total)
+	d.digest = make([]int64, 0, total)
 	if hashDefault {
-		d.digest = make([]int64, 0, total)
 		d.u = make([]float64, total)
 		hj = startHashJobs(spec.Seed)
 		defer hj.stop()
+	}
+	// Without a label end, the time values are parsed on another goroutine in chunks while
+	// rows are still being read: the reading goroutine only keeps each row's value (driver
+	// strings are Go-owned copies; []byte is copied). Each t[i] is a pure function of value i.
+	offTime := timeIdx >= 0 && leIdx < 0
+	var tj *timeJobs
+	var tbuf []driver.Value
+	tsent := 0
+	if offTime {
+		d.t = make([]float64, total)
+		d.tBad = make([]bool, total)
+		tj = startTimeJobs(d.numeric)
+		defer tj.stop()
+		tbuf = tj.buf()
 	}
 	var gf *groupFeed
 	if len(groupIdx) > 0 {
@@ -207,7 +226,7 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		}
 		d.rowID = append(d.rowID, id)
 		d.digest = append(d.digest, dg)
-		if !hashDefault {
+		if !hashDefault && needU {
 			keyBuf = keyBuf[:0]
 			for _, j := range keyIdx {
 				keyBuf, _ = AppendValue(keyBuf, normalize(vals[j]))
@@ -237,7 +256,13 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			}
 			gf.add(gv, dg)
 		}
-		if timeIdx >= 0 {
+		if offTime {
+			v := vals[timeIdx]
+			if b, ok := v.([]byte); ok {
+				v = string(b)
+			}
+			tbuf = append(tbuf, v)
+		} else if timeIdx >= 0 {
 			tv, ok := timeValueFast(vals[timeIdx], d.numeric)
 			bad := !ok
 			if !ok {
@@ -284,6 +309,11 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 			hj.add(d.digest[sent:d.n], d.u[sent:d.n])
 			sent = d.n
 		}
+		if offTime && len(tbuf) >= hashChunk && d.n <= len(d.t) {
+			tj.add(tbuf, d.t[tsent:d.n], d.tBad[tsent:d.n])
+			tbuf = tj.buf()
+			tsent = d.n
+		}
 		if progress != nil && d.n%65536 == 0 {
 			progress(int64(d.n), total)
 		}
@@ -303,6 +333,22 @@ func loadWhere(ctx context.Context, conn *sql.Conn, t *Table, spec *Spec, progre
 		d.u = d.u[:d.n]
 		hj.add(d.digest[sent:d.n], d.u[sent:d.n])
 		hj.wait()
+	}
+	if offTime {
+		if d.n > len(d.t) { // more rows than counted: wait for the chunks in flight, then grow
+			tj.wait()
+			d.t = append(d.t, make([]float64, d.n-len(d.t))...)
+			d.tBad = append(d.tBad, make([]bool, d.n-len(d.tBad))...)
+		}
+		d.t, d.tBad = d.t[:d.n], d.tBad[:d.n]
+		tj.add(tbuf, d.t[tsent:d.n], d.tBad[tsent:d.n])
+		tj.wait()
+		for i, bad := range d.tBad {
+			if bad {
+				badTime = append(badTime, d.rowID[i])
+				d.badTimes++
+			}
+		}
 	}
 	if spec.TimeInvalid == "drop" {
 		badTime, badLE = nil, nil
@@ -616,3 +662,60 @@ func quoteAll(s []string) []string {
 	}
 	return out
 }
+
+// timeJobs parses time values on a worker goroutine while the caller goes on reading. Every
+// t[i] depends only on vals[i], so results do not depend on scheduling.
+type timeJobs struct {
+	numeric bool
+	ch      chan timeJob
+	free    chan []driver.Value
+	wg      sync.WaitGroup
+	once    sync.Once
+}
+
+type timeJob struct {
+	vals []driver.Value
+	t    []float64
+	bad  []bool
+}
+
+func startTimeJobs(numeric bool) *timeJobs {
+	j := &timeJobs{numeric: numeric, ch: make(chan timeJob, 8), free: make(chan []driver.Value, 8)}
+	go func() {
+		for job := range j.ch {
+			for i, v := range job.vals {
+				tv, ok := timeValueFast(v, j.numeric)
+				job.t[i], job.bad[i] = tv, !ok
+				job.vals[i] = nil
+			}
+			select {
+			case j.free <- job.vals[:0]:
+			default:
+			}
+			j.wg.Done()
+		}
+	}()
+	return j
+}
+
+// buf is an empty chunk for the reader (a recycled one when available).
+func (j *timeJobs) buf() []driver.Value {
+	select {
+	case b := <-j.free:
+		return b
+	default:
+		return make([]driver.Value, 0, hashChunk)
+	}
+}
+
+func (j *timeJobs) add(vals []driver.Value, t []float64, bad []bool) {
+	if len(vals) == 0 {
+		return
+	}
+	j.wg.Add(1)
+	j.ch <- timeJob{vals, t, bad}
+}
+
+func (j *timeJobs) wait() { j.wg.Wait() }
+
+func (j *timeJobs) stop() { j.once.Do(func() { close(j.ch) }) }

@@ -326,6 +326,30 @@ func printSplit(w io.Writer, r *splits.Result) {
 			fmt.Fprintf(w, "%s: %v\n", k, r.Notes[k])
 		}
 	}
+	for _, line := range fractionWarnings(r) {
+		fmt.Fprintln(w, line)
+	}
+}
+
+// fractionWarnings flags a side that received less than half its target share of the
+// assigned rows (with at least 100 rows assigned; smaller splits are coarse by nature), and
+// names the span policy when dropping spanning entities is the likely cause.
+func fractionWarnings(r *splits.Result) []string {
+	if r.Assigned < 100 {
+		return nil
+	}
+	var out []string
+	for _, sd := range r.Sides {
+		if sd.TargetFraction == nil || *sd.TargetFraction <= 0 || sd.RowFraction >= *sd.TargetFraction/2 {
+			continue
+		}
+		line := fmt.Sprintf("\nwarning: side %s holds %.1f%% of the assigned rows against a target of %.0f%%", sd.Side, 100*sd.RowFraction, 100**sd.TargetFraction)
+		if n := r.Dropped["span"]; n > 0 && (r.Spec.Span == "" || r.Spec.Span == "drop") {
+			line += fmt.Sprintf(": %d rows of entities that span the cutoff were dropped (--span drop); --span entity keeps each entity on its hashed side and drops only its rows across the cutoff, --span earlier keeps it wholly on the earlier side", n)
+		}
+		out = append(out, line)
+	}
+	return out
 }
 
 func sortedKeys(m map[string]int) []string {

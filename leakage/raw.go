@@ -169,27 +169,7 @@ func roundSignificant(buf []byte, x float64, digits int) (string, []byte, bool) 
 			dg[k]++
 		}
 	}
-	out := make([]byte, 0, digits+8)
-	if x < 0 {
-		out = append(out, '-')
-	}
-	out = append(out, dg[0])
-	if digits > 1 {
-		out = append(out, '.')
-		out = append(out, dg[1:digits]...)
-	}
-	out = append(out, 'e')
-	if exp < 0 {
-		out = append(out, '-')
-		exp = -exp
-	} else {
-		out = append(out, '+')
-	}
-	if exp < 10 {
-		out = append(out, '0')
-	}
-	out = strconv.AppendInt(out, int64(exp), 10)
-	return string(out), buf, true
+	return string(appendSci(x < 0, dg[:digits], exp)), buf, true
 }
 
 var pow10f = [23]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
@@ -242,27 +222,7 @@ func roundFast(x float64, digits int) (r string, ok, sure bool) {
 	}
 	var nb [24]byte
 	dg := strconv.AppendInt(nb[:0], n, 10)
-	out := make([]byte, 0, digits+8)
-	if x < 0 {
-		out = append(out, '-')
-	}
-	out = append(out, dg[0])
-	if digits > 1 {
-		out = append(out, '.')
-		out = append(out, dg[1:]...)
-	}
-	out = append(out, 'e')
-	if e < 0 {
-		out = append(out, '-')
-		e = -e
-	} else {
-		out = append(out, '+')
-	}
-	if e < 10 {
-		out = append(out, '0')
-	}
-	out = strconv.AppendInt(out, int64(e), 10)
-	return string(out), true, true
+	return string(appendSci(x < 0, dg, e)), true, true
 }
 
 func pow10i(n int) int {
@@ -271,4 +231,29 @@ func pow10i(n int) int {
 		p *= 10
 	}
 	return p
+}
+
+// appendSci renders digits d.ddd with exponent exp as SQLite's printf('%.Ne') does:
+// "-1.235e+02", at least two exponent digits.
+func appendSci(neg bool, digits []byte, exp int) []byte {
+	out := make([]byte, 0, len(digits)+8)
+	if neg {
+		out = append(out, '-')
+	}
+	out = append(out, digits[0])
+	if len(digits) > 1 {
+		out = append(out, '.')
+		out = append(out, digits[1:]...)
+	}
+	out = append(out, 'e')
+	if exp < 0 {
+		out = append(out, '-')
+		exp = -exp
+	} else {
+		out = append(out, '+')
+	}
+	if exp < 10 {
+		out = append(out, '0')
+	}
+	return strconv.AppendInt(out, int64(exp), 10)
 }

@@ -154,18 +154,12 @@ func Export(ctx context.Context, conn *sql.Conn, o ExportOptions, w io.Writer) (
 	return n, bw.Flush()
 }
 
+// csvValue is label with NULL as the empty field.
 func csvValue(v any) string {
-	switch x := normalize(v).(type) {
-	case nil:
+	if normalize(v) == nil {
 		return ""
-	case int64:
-		return strconv.FormatInt(x, 10)
-	case float64:
-		return strconv.FormatFloat(x, 'g', -1, 64)
-	case string:
-		return x
 	}
-	return fmt.Sprint(v)
+	return label(v)
 }
 
 func appendJSONValue(b []byte, v any) []byte {

@@ -375,3 +375,28 @@ func TestRun_ShiftAndAdequacy(t *testing.T) {
 		}
 	}
 }
+
+// The audit reads a spec's gap with the split's own parser: every form a split accepts
+// ("1w2d" = 9 days, here) is understood, and a 9-day spec gap against an actual 4-day one
+// (last training day 6, first holdout day 10; constructed) is reported in seconds.
+func TestRun_TimeOverlapCompoundGap(t *testing.T) {
+	f := &fixture{table: "t", split: "bygap", roles: map[string]string{"train": "train", "test": "holdout"}, order: []string{"train", "test"},
+		cols: []fixCol{{"day", "DATE", "TEXT"}, {"x", "REAL", "REAL"}}, timeCol: "day", gap: "1w2d"}
+	for d := 1; d <= 6; d++ {
+		f.rows = append(f.rows, []any{fmt.Sprintf("2024-01-%02d", d), float64(d)})
+		f.sides = append(f.sides, "train")
+	}
+	for d := 10; d <= 12; d++ {
+		f.rows = append(f.rows, []any{fmt.Sprintf("2024-01-%02d", d), float64(d)})
+		f.sides = append(f.sides, "test")
+	}
+	path := f.create(t)
+	rep, err := runAudit(t, path, Options{Split: "bygap", Checks: []string{"time_overlap"}})
+	if err != nil {
+		t.Fatalf("a gap the split accepts must not fail the audit: %v", err)
+	}
+	g := summarize(rep, "time_overlap")
+	if len(g) != 1 || g[0].subject != "gap" || rep.Findings[0].Score != 4*86400 {
+		t.Errorf("want one gap finding of 4 days (345600 s), got %+v", rep.Findings)
+	}
+}

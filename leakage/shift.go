@@ -123,8 +123,8 @@ func runDistributionShift(a *audit) error {
 					v := math.NaN()
 					if !c.null[i] {
 						if isTime {
-							if tm, ok := parseTime(c.str[i]); ok {
-								v = float64(tm.UnixNano()) / 1e9
+							if sec, ok := timeSeconds(c.str[i]); ok {
+								v = sec
 							}
 						} else {
 							v = c.num[i]

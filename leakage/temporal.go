@@ -4,8 +4,8 @@ import (
 	"fmt"
 	"math"
 	"strconv"
-	"strings"
-	"time"
+
+	"splitsmith/splits"
 )
 
 // timeVal compares times the way SQLite compares the stored values: TEXT bytewise, numbers
@@ -39,38 +39,9 @@ func (t timeVal) String() string {
 	return strconv.FormatFloat(t.f, 'g', -1, 64)
 }
 
-// ParseGap reads a split spec's gap: a number (in the time column's own units, for numeric
-// time columns), or a duration: Go's form ("36h", "90m") or a count of days or weeks ("30d",
-// "2w"). It returns seconds for durations.
-func ParseGap(s string) (float64, error) {
-	s = strings.TrimSpace(s)
-	if f, err := strconv.ParseFloat(s, 64); err == nil {
-		return f, nil
-	}
-	if n := len(s); n > 1 && (s[n-1] == 'd' || s[n-1] == 'w') {
-		f, err := strconv.ParseFloat(s[:n-1], 64)
-		if err == nil {
-			if s[n-1] == 'w' {
-				f *= 7
-			}
-			return f * 86400, nil
-		}
-	}
-	d, err := time.ParseDuration(s)
-	if err != nil {
-		return 0, fmt.Errorf("gap %q is not a number or a duration (30d, 2w, 12h)", s)
-	}
-	return d.Seconds(), nil
-}
-
-func parseTime(s string) (time.Time, bool) {
-	for _, layout := range []string{time.RFC3339Nano, "2006-01-02T15:04:05", "2006-01-02 15:04:05", "2006-01-02"} {
-		if t, err := time.Parse(layout, s); err == nil {
-			return t, true
-		}
-	}
-	return time.Time{}, false
-}
+// timeSeconds reads a stored DATE or TIMESTAMP text as the split does (splits.ParseTimeText:
+// Unix seconds, a value without a zone read as UTC).
+func timeSeconds(s string) (float64, bool) { return splits.ParseTimeText(s) }
 
 func runTimeOverlap(a *audit) error {
 	c := a.data[a.timeCol]
@@ -166,19 +137,19 @@ func runTimeOverlap(a *audit) error {
 	}
 	// (c) the gap the spec asked for.
 	if a.gap != "" {
-		want, err := ParseGap(a.gap)
+		want, err := splits.ParseGap(a.gap, !text)
 		if err != nil {
 			return err
 		}
 		var got float64
 		var unit string
 		if text {
-			t1, ok1 := parseTime(tEnd.s)
-			t2, ok2 := parseTime(hStart.s)
+			t1, ok1 := timeSeconds(tEnd.s)
+			t2, ok2 := timeSeconds(hStart.s)
 			if !ok1 || !ok2 {
 				return nil
 			}
-			got, unit = t2.Sub(t1).Seconds(), "seconds"
+			got, unit = t2-t1, "seconds"
 		} else {
 			got, unit = hStart.f-tEnd.f, "units"
 		}

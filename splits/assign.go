@@ -455,7 +455,7 @@ func timeValueFast(v any, numeric bool) (float64, bool) {
 			f, err := strconv.ParseFloat(x, 64)
 			return f, err == nil
 		}
-		return parseTimeText(x)
+		return ParseTimeText(x)
 	}
 	t, _, ok := timeValue(v, numeric)
 	return t, ok
@@ -476,7 +476,7 @@ func timeValue(v any, numeric bool) (float64, string, bool) {
 			f, err := strconv.ParseFloat(x, 64)
 			return f, x, err == nil
 		}
-		t, ok := parseTimeText(x)
+		t, ok := ParseTimeText(x)
 		return t, x, ok
 	}
 	return 0, "", false

@@ -412,15 +412,15 @@ func (s *Spec) Resolve() error {
 			return fieldErr("test_size", "needs --folds")
 		}
 		if s.Until != "" {
-			if _, ok := parseTimeText(s.Until); !ok {
+			if _, ok := ParseTimeText(s.Until); !ok {
 				if _, _, ok := timeValue(s.Until, true); !ok {
 					return fieldErr("until", "%q is not a date (2026-12-31), timestamp (2026-12-31T23:59:59Z) or number", s.Until)
 				}
 			}
 		}
 		if s.Gap != "" {
-			if _, err := parseGap(s.Gap, false); err != nil {
-				if _, err2 := parseGap(s.Gap, true); err2 != nil {
+			if _, err := ParseGap(s.Gap, false); err != nil {
+				if _, err2 := ParseGap(s.Gap, true); err2 != nil {
 					return fieldErr("gap", "%v", err)
 				}
 			}
@@ -507,9 +507,13 @@ func SpecFromJSON(s string) (*Spec, error) {
 	return &sp, nil
 }
 
-// parseGap parses a gap: a Go duration with d (days) and w (weeks) allowed ("30d", "12h",
-// "1w2d"), in seconds; or, numeric, a plain number in the time column's own unit.
-func parseGap(s string, numeric bool) (float64, error) {
+// gapTerm is one number-and-unit term of a gap ("30d" in "1w2d").
+var gapTerm = regexp.MustCompile(`^([0-9]+(?:\.[0-9]+)?)(w|d|h|m|s|ms)`)
+
+// ParseGap parses a gap as the split reads it: a Go duration with d (days) and w (weeks)
+// allowed ("30d", "12h", "1w2d"), in seconds; or, numeric, a plain number in the time
+// column's own unit. The audit uses it too, so both read a spec's gap alike.
+func ParseGap(s string, numeric bool) (float64, error) {
 	if numeric {
 		f, err := strconv.ParseFloat(s, 64)
 		if err != nil || f < 0 || math.IsNaN(f) || math.IsInf(f, 0) {
@@ -519,12 +523,11 @@ func parseGap(s string, numeric bool) (float64, error) {
 	}
 	rest := s
 	total := 0.0
-	re := regexp.MustCompile(`^([0-9]+(?:\.[0-9]+)?)(w|d|h|m|s|ms)`)
 	if rest == "" {
 		return 0, fmt.Errorf("gap is empty")
 	}
 	for rest != "" {
-		m := re.FindStringSubmatch(rest)
+		m := gapTerm.FindStringSubmatch(rest)
 		if m == nil {
 			return 0, fmt.Errorf("gap %q: want a duration such as 30d, 12h, 1w2d or 90m", s)
 		}
@@ -539,9 +542,9 @@ func parseGap(s string, numeric bool) (float64, error) {
 // timeLayouts are the text forms a time column may hold (DATE and TIMESTAMP storage).
 var timeLayouts = []string{"2006-01-02", time.RFC3339Nano, "2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999", "2006-01-02 15:04:05Z07:00", "2006-01-02T15:04"}
 
-// parseTimeText parses a DATE or TIMESTAMP text value to Unix seconds (a value without a zone
+// ParseTimeText parses a DATE or TIMESTAMP text value to Unix seconds (a value without a zone
 // is read as UTC, for ordering only).
-func parseTimeText(v string) (float64, bool) {
+func ParseTimeText(v string) (float64, bool) {
 	if len(v) == 10 && v[4] == '-' && v[7] == '-' {
 		// Fast path for DATE (YYYY-MM-DD): the common case, parsed without time.Parse.
 		y, ok1 := digits(v[0:4])

@@ -93,8 +93,8 @@ func TestParseGap(t *testing.T) {
 		in   string
 		want float64
 	}{{"30d", 30 * 86400}, {"12h", 43200}, {"1w2d", 9 * 86400}, {"90m", 5400}, {"1.5h", 5400}} {
-		if got, err := parseGap(tt.in, false); err != nil || got != tt.want {
-			t.Errorf("parseGap(%q) = %v, %v", tt.in, got, err)
+		if got, err := ParseGap(tt.in, false); err != nil || got != tt.want {
+			t.Errorf("ParseGap(%q) = %v, %v", tt.in, got, err)
 		}
 	}
 }

@@ -70,7 +70,7 @@ func (s *Spec) gapValue(numeric bool) (float64, error) {
 	if s.Gap == "" {
 		return 0, nil
 	}
-	g, err := parseGap(s.Gap, numeric)
+	g, err := ParseGap(s.Gap, numeric)
 	if err != nil {
 		return 0, fieldErr("gap", "%v", err)
 	}
@@ -142,7 +142,7 @@ func assignTime(d *data, spec *Spec, fr []float64, a *assignment) error {
 			_, _, ok = timeValue(spec.Cutoff, true)
 			c, _, _ = timeValue(spec.Cutoff, true)
 		} else {
-			c, ok = parseTimeText(spec.Cutoff)
+			c, ok = ParseTimeText(spec.Cutoff)
 		}
 		if !ok {
 			return fieldErr("cutoff", "%q is not a %s like the values of %q", spec.Cutoff, timeKind(d.numeric), spec.Time)
@@ -211,7 +211,7 @@ func untilValue(spec *Spec, numeric bool) (float64, error) {
 		u, _, ok = timeValue(spec.Until, true)
 		ok = ok && !math.IsNaN(u)
 	} else {
-		u, ok = parseTimeText(spec.Until)
+		u, ok = ParseTimeText(spec.Until)
 	}
 	if !ok {
 		return 0, fieldErr("until", "%q is not a %s like the values of %q", spec.Until, timeKind(numeric), spec.Time)

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"fmt"
 	"os"
 	"strings"
 
@@ -95,4 +94,3 @@ func isTerminal(f any) bool {
 	return err == nil && st.Mode()&os.ModeCharDevice != 0
 }
 
-var _ = fmt.Sprint

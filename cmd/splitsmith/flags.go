@@ -93,4 +93,3 @@ func isTerminal(f any) bool {
 	st, err := file.Stat()
 	return err == nil && st.Mode()&os.ModeCharDevice != 0
 }
-

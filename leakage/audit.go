@@ -156,6 +156,8 @@ type audit struct {
 	needed              map[string]bool     // columns the selected checks read
 	rawNeeded           map[string]bool     // columns read as values, not only in rounded form
 	useDigest           bool                // load ss_digest
+	countEntity         bool                // count entity values per side while reading (shared_entity)
+	counted             map[string]*entityCounter
 	sqlKeys             map[string][]string // key SQL -> each row's key, built by SQLite
 	stream              []keySpec           // keys hashed while the rows are read
 	streamed            map[string][]uint64 // key SQL -> each row's key hash (stream)
@@ -262,6 +264,7 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			raw(a.feature...)
 		case SharedEntity:
 			raw(a.entity...)
+			a.countEntity = !a.entityComponents()
 		case TimeOverlap:
 			raw(a.timeCol)
 			raw(a.entity...)
@@ -677,6 +680,15 @@ func (a *audit) loadRows() error {
 			streams = append(streams, &stream{k, name, a.keyCols(k), make([]uint64, 0, total)})
 		}
 	}
+	a.counted = map[string]*entityCounter{}
+	var counters []*entityCounter
+	if a.countEntity {
+		for _, e := range a.entity {
+			ec := newEntityCounter(a.data[e], len(a.sides), int(total))
+			a.counted[e] = ec
+			counters = append(counters, ec)
+		}
+	}
 	var kbuf []byte
 	process := func(vals []driver.Value) error {
 		id, _ := vals[0].(int64)
@@ -736,6 +748,9 @@ func (a *audit) loadRows() error {
 			var h uint64
 			h, kbuf = rowKey(st.cols, st.spec, len(a.rowID)-1, kbuf)
 			st.out = append(st.out, h)
+		}
+		for _, ec := range counters {
+			ec.add(len(a.rowID)-1, id, si)
 		}
 		if n := len(a.rowID); report != nil && n%65536 == 0 {
 			report(int64(n), total)
@@ -1016,6 +1031,9 @@ func (a *audit) add(f Finding) {
 			f.anchor = f.Sides[k].Rows[0]
 		}
 	}
+	if len(f.Items) > 0 && f.Items[0].FirstRow < f.anchor {
+		f.anchor = f.Items[0].FirstRow
+	}
 	if f.Evidence == nil {
 		f.Evidence = map[string]any{}
 	}
@@ -1086,6 +1104,10 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 		if err != nil {
 			return err
 		}
+		ib, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_items(audit_id, seq, first_row, side, item, rows) VALUES`, 6, 150)
+		if err != nil {
+			return err
+		}
 		for i, f := range rep.Findings {
 			seq := int64(i + 1)
 			var sideA, sideB driver.Value
@@ -1127,8 +1149,18 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 					}
 				}
 			}
+			for _, it := range f.Items {
+				for _, s := range it.Sides {
+					if err := ib.add(a.auditID, seq, it.FirstRow, s.Side, it.Name, int64(s.N)); err != nil {
+						return err
+					}
+				}
+			}
 		}
 		if err := fb.flush(); err != nil {
+			return err
+		}
+		if err := ib.flush(); err != nil {
 			return err
 		}
 		return rb.flush()

@@ -79,7 +79,21 @@ func summarize(rep *Report, check string) []got {
 		for _, s := range f.Sides {
 			parts = append(parts, fmt.Sprintf("%s:%v", s.Side, s.Rows))
 		}
+		parts = append(parts, itemsText(f.Items)...)
 		out = append(out, got{f.Check, f.Subject, f.Severity, strings.Join(parts, " ")})
+	}
+	return out
+}
+
+// itemsText renders items as name@first_row{side:rows ...}.
+func itemsText(items []Item) []string {
+	var out []string
+	for _, it := range items {
+		var ps []string
+		for _, s := range it.Sides {
+			ps = append(ps, fmt.Sprintf("%s:%d", s.Side, s.N))
+		}
+		out = append(out, fmt.Sprintf("%s@%d{%s}", it.Name, it.FirstRow, strings.Join(ps, " ")))
 	}
 	return out
 }
@@ -103,11 +117,8 @@ func TestRun_PlantedLeaks(t *testing.T) {
 			{"near_duplicate_text", "notes", Error, "train:[9] holdout:[39]"},
 		},
 		"near_duplicate_numeric": {{"near_duplicate_numeric", "across sides", Warn, "train:[9] holdout:[39]"}},
-		"shared_entity": {
-			{"shared_entity", "segment", Error, "train:[3] holdout:[33]"},
-			{"shared_entity", "segment", Error, "train:[7] holdout:[37]"},
-			{"shared_entity", "segment", Info, ""},
-		},
+		// By construction: row 33 copies row 3 (segment S03) and row 37 is given S07.
+		"shared_entity": {{"shared_entity", "segment", Error, "S03@3{train:1 holdout:1} S07@7{train:1 holdout:1}"}},
 		"label_conflict": {{"label_conflict", "across sides", Error, "train:[8] holdout:[38]"}},
 	}
 	for check, w := range want {
@@ -164,6 +175,31 @@ func TestRun_ReplayDetectsTampering(t *testing.T) {
 	got := replay(t, path, "naive")
 	if got["exact_duplicate.across"] == 0 || got["shared_entity.segment"] != 0 {
 		t.Errorf("replay after tampering: %v", got)
+	}
+	// The stored report query lists the rows of the shared segments (rows 3, 33 and 7, 37 by
+	// construction); moving row 37 to another segment breaks the stored items.
+	db = openRW(t, path)
+	var rows []string
+	r, err := db.Query(replayText(t, path, "shared_entity.segment.rows"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for r.Next() {
+		var id int64
+		var side, seg string
+		r.Scan(&id, &side, &seg)
+		rows = append(rows, fmt.Sprintf("%d/%s/%s", id, side, seg))
+	}
+	r.Close()
+	if fmt.Sprint(rows) != "[3/train/S03 7/train/S07 33/holdout/S03 37/holdout/S07]" {
+		t.Errorf("shared_entity.segment.rows = %v", rows)
+	}
+	if _, err := db.Exec(`UPDATE pipes SET segment = 'S99' WHERE ss_row = 37`); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	if n := replay(t, path, "naive")["shared_entity.segment"]; n != 2 {
+		t.Errorf("replay of shared_entity.segment after moving row 37 = %d rows, want 2 (S07's two stored sides)", n)
 	}
 }
 

@@ -105,7 +105,7 @@ var (
 	SharedEntity = &Check{
 		Name:     "shared_entity",
 		Title:    "an entity with rows on more than one side",
-		Doc:      "For each entity column (--entity, by default the split's group columns) every non-NULL value with rows on more than one side, with its rows per side. When the entity columns are the split's own two or more group columns (the default), they are one entity as the split formed it: rows sharing a value in any of them are one entity (connected components), reported once, named by its first member value (column order, then value). Rows of one entity (a pipe segment, a customer) are correlated: a model that saw some of them in training scores the rest too well.",
+		Doc:      "For each entity column (--entity, by default the split's group columns) one finding when any non-NULL value has rows on more than one side: how many values do, and how many rows on each side they hold; each such value and its row count per side are listed in ss_finding_items (not its rows in ss_finding_rows: the value identifies them, and a stored report query lists them). When the entity columns are the split's own two or more group columns (the default), they are one entity as the split formed it: rows sharing a value in any of them are one entity (connected components), named by its first member value (column order, then value). Rows of one entity (a pipe segment, a customer) are correlated: a model that saw some of them in training scores the rest too well.",
 		Requires: []string{"entity"},
 		SQL:      "stock",
 		run:      runSharedEntity,
@@ -240,6 +240,9 @@ type Finding struct {
 	Item     string // which one ("" for none)
 	HasItem  bool
 	Sides    []SideRows // rows involved, per side in split order
+	// Items are the groups involved when a group is the unit (shared_entity: each shared
+	// entity and its rows per side), in order of first row; stored in ss_finding_items.
+	Items []Item
 	// Without Sides (statistics over whole sides), the sides compared and their row counts.
 	SideA, SideB string
 	NA, NB       int
@@ -250,10 +253,18 @@ type Finding struct {
 	anchor       int64  // smallest row involved, for ordering
 }
 
+// Item is one group a finding involves: its name, smallest row and row count per side.
+type Item struct {
+	Name     string
+	FirstRow int64      // smallest row id of the group, on any side
+	Sides    []SideRows // per side in split order: Side and N (Rows stays nil)
+}
+
 // SideRows are the rows of one side involved in a finding.
 type SideRows struct {
 	Side string
 	Rows []int64 // ascending
+	N    int     // in an Item: the group's row count on the side (Rows is nil)
 }
 
 // InputError is a bad option or argument: an unknown column, check or parameter, a label

@@ -37,18 +37,14 @@ func TestSharedEntity_ConnectedComponents(t *testing.T) {
 	}
 	var out []string
 	for _, f := range rep.Findings {
-		var parts []string
-		for _, s := range f.Sides {
-			parts = append(parts, fmt.Sprintf("%s:%v", s.Side, s.Rows))
-		}
-		out = append(out, fmt.Sprintf("%s %s %s %v", f.Subject, f.Item, f.Severity, parts))
+		out = append(out, fmt.Sprintf("%s %s %v", f.Subject, f.Severity, itemsText(f.Items)))
 	}
-	want := "[segment+main segment=A error [train:[1] holdout:[2]] segment+main segment=D error [train:[6] holdout:[5]] segment+main segment=E error [train:[8 9] holdout:[7]] segment+main summary info []]"
+	want := "[segment+main error [segment=A@1{train:1 holdout:1} segment=D@5{train:1 holdout:1} segment=E@7{train:2 holdout:1}]]"
 	if fmt.Sprint(out) != want {
 		t.Errorf("findings:\n got %v\nwant %s", out, want)
 	}
-	if m := rep.Findings[3].Message; m != "3 of 4 entities over segment, main (75.0%) have rows on more than one side, 7 rows in all" {
-		t.Errorf("summary = %q", m)
+	if m := rep.Findings[0].Message; m != "3 of 4 entities over segment, main (75.0%) have rows on more than one side, 7 rows in all: 4 on train, 3 on holdout; e.g. segment=A (1 on train, 1 on holdout); segment=D (1 on train, 1 on holdout); segment=E (2 on train, 1 on holdout)" {
+		t.Errorf("message = %q", m)
 	}
 	got := replay(t, path, "g")
 	if n, ok := got["shared_entity.components"]; !ok || n != 0 {
@@ -72,9 +68,9 @@ func TestSharedEntity_ConnectedComponents(t *testing.T) {
 	}
 	out = out[:0]
 	for _, f := range rep.Findings {
-		out = append(out, f.Subject+" "+f.Item)
+		out = append(out, f.Subject+" "+fmt.Sprint(itemsText(f.Items)))
 	}
-	if fmt.Sprint(out) != "[main M1 main M4 main summary]" {
+	if fmt.Sprint(out) != "[main [M1@1{train:1 holdout:1} M4@7{train:1 holdout:1}]]" {
 		t.Errorf("per-column findings = %v", out)
 	}
 }

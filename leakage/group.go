@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"slices"
 	"sort"
+	"strconv"
 	"strings"
 )
 
@@ -154,23 +155,40 @@ func (a *audit) entityComponentGroups() ([]string, [][]int32) {
 }
 
 // componentSQL is the stock-SQL recomputation of connected components over the entity
-// columns: the (row, anchor) pairs, anchor being the component's smallest row, for
-// components on more than one side (a recursive CTE: rows reach each other through a shared
-// value in the same column).
-func (a *audit) componentSQL() ([]string, string) {
-	var exprs, parts []string
+// columns (a recursive CTE: rows reach each other through a shared value in the same
+// column): the CTEs and a query of (first_row, side, item, rows) for components on more than
+// one side, first_row being the component's smallest row and item its name — the smallest
+// (column position, value as text) as column=value — when every entity column holds text or
+// integers (named; CAST(value AS TEXT) is then the value's text), NULL otherwise.
+func (a *audit) componentSQL() ([]string, string, bool) {
+	var exprs, parts, names []string
+	named := true
 	for j, e := range a.entity {
 		exprs = append(exprs, fmt.Sprintf("t.%s AS e%d", quoteIdent(e), j+1))
 		parts = append(parts, fmt.Sprintf("SELECT row_id, %d AS c, e%d AS val FROM k WHERE e%d IS NOT NULL", j+1, j+1, j+1))
+		names = append(names, fmt.Sprintf("WHEN %d THEN %s", j+1, quoteString(e)))
+		if a.colType(e).SQLType == "REAL" {
+			named = false
+		}
 	}
 	ctes := []string{
 		a.baseCTE(exprs...),
 		"v(row_id, c, val) AS (" + strings.Join(parts, " UNION ALL ") + ")",
 		"reach(a, b) AS (SELECT row_id, row_id FROM v UNION SELECT reach.a, v2.row_id FROM reach JOIN v v1 ON v1.row_id = reach.b JOIN v v2 ON v2.c = v1.c AND v2.val = v1.val)",
 		"comp(row_id, anchor) AS (SELECT a, min(b) FROM reach GROUP BY a)",
+		"cs AS (SELECT comp.anchor FROM comp JOIN k ON k.row_id = comp.row_id GROUP BY comp.anchor HAVING count(DISTINCT k.side) > 1)",
 	}
-	recomputed := `SELECT comp.row_id, k.side, comp.anchor FROM comp JOIN k ON k.row_id = comp.row_id WHERE comp.anchor IN (SELECT c2.anchor FROM comp c2 JOIN k k2 ON k2.row_id = c2.row_id GROUP BY c2.anchor HAVING count(DISTINCT k2.side) > 1)`
-	return ctes, recomputed
+	item := "NULL"
+	join := ""
+	if named {
+		ctes = append(ctes,
+			"nm AS (SELECT comp.anchor, v.c, CAST(v.val AS TEXT) AS tv FROM comp JOIN v ON v.row_id = comp.row_id)",
+			"nm1 AS (SELECT anchor, min(c) AS c FROM nm GROUP BY anchor)",
+			"nm2 AS (SELECT nm.anchor, (CASE nm.c "+strings.Join(names, " ")+" END) || '=' || min(nm.tv) AS item FROM nm JOIN nm1 ON nm1.anchor = nm.anchor AND nm1.c = nm.c GROUP BY nm.anchor)")
+		item, join = "nm2.item", " JOIN nm2 ON nm2.anchor = comp.anchor"
+	}
+	recomputed := "SELECT comp.anchor, k.side, " + item + ", count(*) FROM comp JOIN k ON k.row_id = comp.row_id" + join + " WHERE comp.anchor IN (SELECT anchor FROM cs) GROUP BY comp.anchor, k.side"
+	return ctes, recomputed, named
 }
 
 func runSharedEntity(a *audit) error {
@@ -178,36 +196,203 @@ func runSharedEntity(a *audit) error {
 		return runSharedComponents(a)
 	}
 	for _, col := range a.entity {
-		order, groups := a.entityGroups(col)
-		n, rows := 0, 0
-		for gi, k := range order {
-			g := groups[gi]
-			if a.distinctSides(g) < 2 {
-				continue
-			}
-			n++
-			rows += len(g)
-			s := a.groupSides(g)
-			counts := map[string]int{}
-			for _, x := range s {
-				counts[x.Side] = len(x.Rows)
-			}
-			a.add(Finding{Severity: Error, Subject: col, Item: itemText(k), HasItem: true, Sides: s, Score: float64(len(s)), Query: a.queryName(col),
-				Message:  fmt.Sprintf("%s %s has rows on %d sides: %s", col, itemText(k), len(s), sideSummary(s)),
-				Evidence: map[string]any{"rows_per_side": counts}})
-		}
+		items, total := a.sharedItems(col)
 		x := "t." + quoteIdent(col)
 		cte := a.baseCTE(x + " AS entity")
+		named := a.colType(col).SQLType != "REAL" // CAST(value AS TEXT) is the item's text
+		itemExpr := "CAST(e.entity AS TEXT)"
+		if !named {
+			itemExpr = "NULL"
+		}
+		ctes := []string{cte,
+			"e AS (SELECT entity, side, count(*) AS n, min(row_id) AS m FROM k WHERE entity IS NOT NULL GROUP BY entity, side)",
+			"s AS (SELECT entity, min(m) AS first_row FROM e GROUP BY entity HAVING count(*) > 1)"}
 		a.addQuery(Query{Name: a.queryName(col), Kind: "check",
-			Description: fmt.Sprintf("values of %s with rows on more than one side; no rows = the stored shared_entity findings for %s hold", col, col),
-			SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER (PARTITION BY entity) FROM k WHERE entity IN (SELECT entity FROM k WHERE entity IS NOT NULL GROUP BY entity HAVING count(DISTINCT side) > 1)`, col)})
-		if n > 0 {
-			a.add(Finding{Severity: Info, Subject: col, Item: "summary", HasItem: true, Score: float64(n) / float64(len(order)),
-				Message:  fmt.Sprintf("%d of %d %s values (%.1f%%) have rows on more than one side, %d rows in all", n, len(order), col, 100*float64(n)/float64(len(order)), rows),
-				Evidence: map[string]any{"shared": n, "entities": len(order), "rows": rows}})
+			Description: fmt.Sprintf("values of %s with rows on more than one side, with their first row and row count per side; no rows = the stored shared_entity items for %s (ss_finding_items) hold", col, col),
+			SQL:         a.replayItemsSQL(ctes, "SELECT s.first_row, e.side, "+itemExpr+", e.n FROM e JOIN s ON s.entity = e.entity", col, named)})
+		a.addQuery(Query{Name: a.queryName(col + ".rows"), Kind: "report",
+			Description: fmt.Sprintf("the rows of every shared %s value the latest audit stored (row, side, value), in row order", col),
+			SQL: "WITH " + cte + ",\n" + fmt.Sprintf("shared AS (SELECT DISTINCT k.entity FROM ss_finding_items i JOIN ss_findings f ON f.audit_id = i.audit_id AND f.seq = i.seq JOIN k ON k.row_id = i.first_row WHERE f.audit_id = %d AND f.check_name = %s AND f.subject = %s)\n",
+				a.auditID, quoteString(a.check.Name), quoteString(col)) +
+				"SELECT k.row_id, k.side, k.entity FROM k JOIN shared ON shared.entity = k.entity ORDER BY k.row_id"})
+		if len(items) > 0 {
+			a.add(a.sharedFinding(col, col+" values", items, total, map[string]any{}))
 		}
 	}
 	return nil
+}
+
+// sharedFinding is the one shared_entity finding of a subject: the shared items, how many of
+// the subject's total, the rows they hold per side, and the first few by name.
+func (a *audit) sharedFinding(subject, what string, items []Item, total int, ev map[string]any) Finding {
+	per := make([]int, len(a.sides))
+	rows := 0
+	for _, it := range items {
+		for _, s := range it.Sides {
+			per[a.sidePos(s.Side)] += s.N
+			rows += s.N
+		}
+	}
+	counts := map[string]int{}
+	var parts []string
+	f := Finding{Severity: Error, Subject: subject, Items: items, Query: a.queryName(subject), Score: float64(len(items)) / float64(total)}
+	if a.entityComponents() {
+		f.Query = a.queryName("components")
+	}
+	for si, n := range per {
+		if n == 0 {
+			continue
+		}
+		name := a.sides[si].Name
+		counts[name] = n
+		parts = append(parts, fmt.Sprintf("%d on %s", n, name))
+		if f.SideA == "" {
+			f.SideA, f.NA = name, n
+		} else if f.SideB == "" {
+			f.SideB, f.NB = name, n
+		}
+	}
+	var ex []string
+	for _, it := range items[:min(3, len(items))] {
+		var ps []string
+		for _, s := range it.Sides {
+			ps = append(ps, fmt.Sprintf("%d on %s", s.N, s.Side))
+		}
+		ex = append(ex, fmt.Sprintf("%s (%s)", it.Name, strings.Join(ps, ", ")))
+	}
+	more := ""
+	if len(items) > 3 {
+		more = ", ..."
+	}
+	f.Message = fmt.Sprintf("%d of %d %s (%.1f%%) have rows on more than one side, %d rows in all: %s; e.g. %s%s",
+		len(items), total, what, 100*f.Score, rows, strings.Join(parts, ", "), strings.Join(ex, "; "), more)
+	ev["shared"], ev["entities"], ev["rows"], ev["rows_per_side"] = len(items), total, rows, counts
+	f.Evidence = ev
+	return f
+}
+
+// entityCounter counts one entity column's rows per side and value, row by row (during the
+// read, on the processing goroutine, when shared_entity runs; else after it).
+type entityCounter struct {
+	c      *column
+	ns     int
+	counts []int32 // group g's rows on side s at g*ns+s
+	first  []int64 // group g's first row id
+	names  []string
+	str    map[string]int32
+	ints   map[int64]int32
+	num    map[float64]int32
+}
+
+func newEntityCounter(c *column, sides, rows int) *entityCounter {
+	e := &entityCounter{c: c, ns: sides}
+	switch c.SQLType {
+	case "TEXT":
+		e.str = make(map[string]int32, rows/4+1)
+	case "INTEGER":
+		e.ints = make(map[int64]int32, rows/4+1)
+	default:
+		e.num = make(map[float64]int32, rows/4+1)
+	}
+	return e
+}
+
+// add counts row i (already read into the column) with its row id and side index.
+func (e *entityCounter) add(i int, id int64, side int) {
+	c := e.c
+	if c.null[i] {
+		return
+	}
+	var g int32
+	var ok bool
+	switch {
+	case e.str != nil:
+		if g, ok = e.str[c.str[i]]; !ok {
+			g = e.group(id, c.str[i])
+			e.str[c.str[i]] = g
+		}
+	case e.ints != nil:
+		if g, ok = e.ints[c.ints[i]]; !ok {
+			g = e.group(id, strconv.FormatInt(c.ints[i], 10))
+			e.ints[c.ints[i]] = g
+		}
+	default:
+		if g, ok = e.num[c.num[i]]; !ok {
+			g = e.group(id, strconv.FormatFloat(c.num[i], 'g', -1, 64))
+			e.num[c.num[i]] = g
+		}
+	}
+	e.counts[int(g)*e.ns+side]++
+}
+
+func (e *entityCounter) group(id int64, name string) int32 {
+	g := int32(len(e.first))
+	e.first = append(e.first, id)
+	e.names = append(e.names, name)
+	for range e.ns {
+		e.counts = append(e.counts, 0)
+	}
+	return g
+}
+
+// sharedItems returns the values of col with rows on more than one side, in order of first
+// row, and the number of distinct values (counted while the rows were read when it could be).
+func (a *audit) sharedItems(col string) ([]Item, int) {
+	e := a.counted[col]
+	if e == nil {
+		e = newEntityCounter(a.data[col], len(a.sides), len(a.rowID))
+		for i, id := range a.rowID {
+			e.add(i, id, a.side[i])
+		}
+	}
+	return a.itemsOf(e.names, e.first, e.counts), len(e.first)
+}
+
+// itemsOf turns per-group side counts into items, keeping groups on two or more sides.
+func (a *audit) itemsOf(names []string, first []int64, counts []int32) []Item {
+	ns := len(a.sides)
+	var items []Item
+	var flat []SideRows
+	for g := range first {
+		cs := counts[g*ns : (g+1)*ns]
+		k := 0
+		for _, n := range cs {
+			if n > 0 {
+				k++
+			}
+		}
+		if k < 2 {
+			continue
+		}
+		if len(flat) < k {
+			flat = make([]SideRows, 4096)
+		}
+		sides := flat[:0:k]
+		flat = flat[k:]
+		for s, n := range cs {
+			if n > 0 {
+				sides = append(sides, SideRows{Side: a.sides[s].Name, N: int(n)})
+			}
+		}
+		items = append(items, Item{Name: names[g], FirstRow: first[g], Sides: sides})
+	}
+	return items
+}
+
+// replayItemsSQL compares recomputed (first_row, side, item, rows) with the stored items of
+// this check and subject (item NULL on both when !named): no rows = agreement.
+func (a *audit) replayItemsSQL(ctes []string, recomputed, subject string, named bool) string {
+	item := "i.item"
+	if !named {
+		item = "NULL"
+	}
+	stored := fmt.Sprintf(`SELECT i.first_row, i.side, %s, i.rows FROM ss_finding_items i JOIN ss_findings f ON f.audit_id = i.audit_id AND f.seq = i.seq WHERE f.audit_id = %d AND f.check_name = %s AND f.subject = %s`,
+		item, a.auditID, quoteString(a.check.Name), quoteString(subject))
+	all := append(append([]string{}, ctes...), "recomputed(first_row, side, item, rows) AS ("+recomputed+")", "stored(first_row, side, item, rows) AS ("+stored+")")
+	return "WITH " + strings.Join(all, ",\n") + "\n" +
+		"SELECT 'recomputed, not stored' AS problem, first_row, side, item, rows FROM (SELECT * FROM recomputed EXCEPT SELECT * FROM stored)\n" +
+		"UNION ALL SELECT 'stored, not recomputed', first_row, side, item, rows FROM (SELECT * FROM stored EXCEPT SELECT * FROM recomputed)\n" +
+		"ORDER BY 2, 3"
 }
 
 // runSharedComponents is shared_entity over the connected components of the split's own
@@ -215,30 +400,22 @@ func runSharedEntity(a *audit) error {
 func runSharedComponents(a *audit) error {
 	subject := a.componentSubject()
 	names, groups := a.entityComponentGroups()
-	n, rows := 0, 0
-	for k, g := range groups {
-		if a.distinctSides(g) < 2 {
-			continue
+	ns := len(a.sides)
+	first := make([]int64, len(groups))
+	counts := make([]int32, len(groups)*ns)
+	for g, rows := range groups {
+		first[g] = a.rowID[rows[0]] // rows ascending, in row order
+		for _, i := range rows {
+			counts[g*ns+a.side[i]]++
 		}
-		n++
-		rows += len(g)
-		s := a.groupSides(g)
-		counts := map[string]int{}
-		for _, x := range s {
-			counts[x.Side] = len(x.Rows)
-		}
-		a.add(Finding{Severity: Error, Subject: subject, Item: names[k], HasItem: true, Sides: s, Score: float64(len(s)), Query: a.queryName("components"),
-			Message:  fmt.Sprintf("entity %s (linked over %s) has rows on %d sides: %s", names[k], strings.Join(a.entity, ", "), len(s), sideSummary(s)),
-			Evidence: map[string]any{"rows_per_side": counts, "columns": a.entity}})
 	}
-	ctes, recomputed := a.componentSQL()
+	items := a.itemsOf(names, first, counts)
+	ctes, recomputed, named := a.componentSQL()
 	a.addQuery(Query{Name: a.queryName("components"), Kind: "check",
-		Description: fmt.Sprintf("entities formed over %s as the split formed them (rows sharing a value in any of them are one entity) with rows on more than one side; no rows = the stored shared_entity findings hold", strings.Join(a.entity, ", ")),
-		SQL:         a.replaySQL(ctes, recomputed, subject)})
-	if n > 0 {
-		a.add(Finding{Severity: Info, Subject: subject, Item: "summary", HasItem: true, Score: float64(n) / float64(len(groups)),
-			Message:  fmt.Sprintf("%d of %d entities over %s (%.1f%%) have rows on more than one side, %d rows in all", n, len(groups), strings.Join(a.entity, ", "), 100*float64(n)/float64(len(groups)), rows),
-			Evidence: map[string]any{"shared": n, "entities": len(groups), "rows": rows}})
+		Description: fmt.Sprintf("entities formed over %s as the split formed them (rows sharing a value in any of them are one entity) with rows on more than one side, with their first row and row count per side; no rows = the stored shared_entity items hold", strings.Join(a.entity, ", ")),
+		SQL:         a.replayItemsSQL(ctes, recomputed, subject, named)})
+	if len(items) > 0 {
+		a.add(a.sharedFinding(subject, "entities over "+strings.Join(a.entity, ", "), items, len(groups), map[string]any{"columns": a.entity}))
 	}
 	return nil
 }

@@ -88,7 +88,7 @@ func TestAudit_SameResultsWithOneAndTwoProcs(t *testing.T) {
 			t.Errorf("params %v: findings differ between GOMAXPROCS 1 (%d) and 2 (%d)", params, len(r1.Findings), len(r2.Findings))
 		}
 		if !reflect.DeepEqual(rows1, rows2) {
-			t.Errorf("params %v: ss_finding_rows differ between GOMAXPROCS 1 (%d rows) and 2 (%d rows)", params, len(rows1), len(rows2))
+			t.Errorf("params %v: ss_finding_rows or ss_finding_items differ between GOMAXPROCS 1 (%d rows) and 2 (%d rows)", params, len(rows1), len(rows2))
 		}
 		for name, n := range bad {
 			if n != 0 {
@@ -118,6 +118,19 @@ func dumpFindingRows(t *testing.T, path string) [][]any {
 			t.Fatal(err)
 		}
 		out = append(out, []any{seq, side, id})
+	}
+	items, err := db.Query(`SELECT seq, first_row, side, item, rows FROM ss_finding_items ORDER BY audit_id, seq, first_row, side`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer items.Close()
+	for items.Next() {
+		var seq, first, n int64
+		var side, item string
+		if err := items.Scan(&seq, &first, &side, &item, &n); err != nil {
+			t.Fatal(err)
+		}
+		out = append(out, []any{"item", seq, first, side, item, n})
 	}
 	return out
 }

@@ -31,7 +31,8 @@ func newAuditCommand(s stdio) *cli.Command {
 		Usage: "report every leak between the sides of a split",
 		Description: `Runs the leakage checks (splitsmith audit --list-checks shows each, with its
 thresholds and sources) on split NAME and stores the findings in ss_findings (one ss_audits
-row per audit), the rows each involves in ss_finding_rows, and SQL that recomputes them in
+row per audit), the rows each involves in ss_finding_rows (for shared_entity, each shared
+entity and its rows per side in ss_finding_items), and SQL that recomputes them in
 ss_audit_queries (subject 'audit:NAME'); a stored 'check' query returns no rows while its
 findings still hold. Findings and their order are deterministic.
 
@@ -195,6 +196,15 @@ func writeAuditReport(w io.Writer, rep *leakage.Report, o auditOptions) error {
 			Side string  `json:"side"`
 			Rows []int64 `json:"rows"`
 		}
+		type itemSide struct {
+			Side string `json:"side"`
+			Rows int    `json:"rows"`
+		}
+		type item struct {
+			Item     string     `json:"item"`
+			FirstRow int64      `json:"first_row"`
+			Sides    []itemSide `json:"sides"`
+		}
 		type finding struct {
 			Seq      int            `json:"seq"`
 			Check    string         `json:"check"`
@@ -202,6 +212,7 @@ func writeAuditReport(w io.Writer, rep *leakage.Report, o auditOptions) error {
 			Subject  string         `json:"subject"`
 			Item     *string        `json:"item"`
 			Sides    []side         `json:"sides"`
+			Items    []item         `json:"items,omitempty"`
 			Score    *float64       `json:"score"`
 			Message  string         `json:"message"`
 			Evidence map[string]any `json:"evidence"`
@@ -240,6 +251,13 @@ func writeAuditReport(w io.Writer, rep *leakage.Report, o auditOptions) error {
 			}
 			for _, s := range f.Sides {
 				x.Sides = append(x.Sides, side{s.Side, s.Rows})
+			}
+			for _, it := range f.Items {
+				y := item{Item: it.Name, FirstRow: it.FirstRow}
+				for _, s := range it.Sides {
+					y.Sides = append(y.Sides, itemSide{s.Side, s.N})
+				}
+				x.Items = append(x.Items, y)
 			}
 			out.Findings = append(out.Findings, x)
 		}

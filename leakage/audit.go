@@ -153,10 +153,10 @@ type audit struct {
 	workers   int
 	// significant digits to load rounded forms for: REAL columns, and all numeric columns
 	roundReal, roundAll []int
-	needed              map[string]bool     // columns the selected checks read
-	rawNeeded           map[string]bool     // columns read as values, not only in rounded form
-	useDigest           bool                // load ss_digest
-	countEntity         bool                // count entity values per side while reading (shared_entity)
+	needed              map[string]bool // columns the selected checks read
+	rawNeeded           map[string]bool // columns read as values, not only in rounded form
+	useDigest           bool            // load ss_digest
+	countEntity         bool            // count entity values per side while reading (shared_entity)
 	counted             map[string]*entityCounter
 	sqlKeys             map[string][]string // key SQL -> each row's key, built by SQLite
 	stream              []keySpec           // keys hashed while the rows are read

@@ -118,7 +118,7 @@ func TestRun_PlantedLeaks(t *testing.T) {
 		},
 		"near_duplicate_numeric": {{"near_duplicate_numeric", "across sides", Warn, "train:[9] holdout:[39]"}},
 		// By construction: row 33 copies row 3 (segment S03) and row 37 is given S07.
-		"shared_entity": {{"shared_entity", "segment", Error, "S03@3{train:1 holdout:1} S07@7{train:1 holdout:1}"}},
+		"shared_entity":  {{"shared_entity", "segment", Error, "S03@3{train:1 holdout:1} S07@7{train:1 holdout:1}"}},
 		"label_conflict": {{"label_conflict", "across sides", Error, "train:[8] holdout:[38]"}},
 	}
 	for check, w := range want {

@@ -1,5 +1,6 @@
 // Package ingest loads CSV, TSV and JSON Lines inputs into typed SQLite tables, and holds the
-// row content digest, the data-quality profile and the demo data generator.
+// row content digest, the column-additive normalised digest (normdigest.go), the
+// data-quality profile and the demo data generator.
 //
 // # Reading
 //
@@ -66,7 +67,10 @@
 //
 // # SQL
 //
-//	ingest_digest(v1, ..., vn)  the content digest stored in ss_digest
-//	ingest_infer_type(text)     the type a column holding only that value would get
-//	ingest_norm(text)           trimmed, whitespace-collapsed, lower-cased text
+//	ingest_digest(v1, ..., vn)       the content digest stored in ss_digest
+//	ingest_norm_digest(t1, ..., tn)  the normalised digest stored in ss_norm_digest, over
+//	                                 normalised texts (Result.NormDigestCheckSQL writes them)
+//	ingest_norm_term(pos, norm)      one column's term of that sum
+//	ingest_infer_type(text)          the type a column holding only that value would get
+//	ingest_norm(text)                trimmed, whitespace-collapsed, lower-cased text
 package ingest

@@ -6,7 +6,9 @@ import (
 	"database/sql/driver"
 	"errors"
 	"fmt"
+	"strconv"
 	"strings"
+	"sync/atomic"
 	"unsafe"
 )
 
@@ -20,6 +22,17 @@ type batch struct {
 	n       int
 	src     int // index of the source every row of the batch comes from
 	rejects []Problem
+	fixes   []normFix // REAL values whose normalised text SQLite decides (see normFix)
+}
+
+// normFix is a REAL value of a batch near a rounding boundary at NormDigits digits, where Go
+// cannot be sure to round as SQLite's printf does (RoundSignificant): the producer leaves its
+// term out of the row's ss_norm_digest, and the consumer, which holds the connection, asks
+// SQLite for printf('%.8e', x) and adds the term before it executes the batch.
+type normFix struct {
+	arg int // index in batch.args of the row's ss_norm_digest
+	pos int // the column's 1-based position
+	x   float64
 }
 
 func newBatch(per, width int) *batch {
@@ -34,7 +47,7 @@ func newBatch(per, width int) *batch {
 // digests rows into batches while this goroutine executes multi-row INSERTs through the
 // driver's own statement interface (no database/sql conversion per value).
 func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
-	width := 2 + len(l.cols) // ss_line, ss_digest, user columns (ss_row and ss_source are not bound)
+	width := l.sysBound() + len(l.cols) // ss_line, ss_digest, ss_norm_digest, user columns (ss_row and ss_source are not bound)
 	per := l.opts.BatchRows
 	if per*width > maxParams {
 		per = max(1, maxParams/width)
@@ -75,17 +88,29 @@ func (l *loader) pass2(ctx context.Context, conn *sql.Conn) (*Result, error) {
 	return res, nil
 }
 
+// sysBound is how many system columns each row binds: ss_line, ss_digest and, unless the
+// appended table was made before it existed, ss_norm_digest.
+func (l *loader) sysBound() int {
+	if l.normDigest {
+		return 3
+	}
+	return 2
+}
+
 // insertSQL is a multi-row INSERT for one source. ss_row is left to SQLite: an INTEGER
 // PRIMARY KEY without a value gets max(ss_row)+1, so rows are numbered in load order and an
 // append continues the sequence. The source name is a literal, not a bound value.
 func (l *loader) insertSQL(src string, rows int) string {
 	var b strings.Builder
 	b.WriteString("INSERT INTO " + quoteIdent(l.table) + " (ss_source, ss_line, ss_digest")
+	if l.normDigest {
+		b.WriteString(", ss_norm_digest")
+	}
 	for _, c := range l.cols {
 		b.WriteString(", " + quoteIdent(c))
 	}
 	b.WriteString(") VALUES ")
-	one := "(" + quoteString(src) + strings.Repeat(",?", 2+len(l.cols)) + ")"
+	one := "(" + quoteString(src) + strings.Repeat(",?", l.sysBound()+len(l.cols)) + ")"
 	for i := range rows {
 		if i > 0 {
 			b.WriteByte(',')
@@ -121,7 +146,31 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 	for i := range rejArgs {
 		rejArgs[i].Ordinal = i + 1
 	}
+	var stFix driver.StmtQueryContext
+	fixArg := make([]driver.NamedValue, 1)
+	fixArg[0].Ordinal = 1
+	fixVal := make([]driver.Value, 1)
 	for b := range full {
+		for _, fx := range b.fixes {
+			if stFix == nil {
+				st, err := pc.PrepareContext(ctx, `SELECT printf('%.8e', ?)`)
+				if err != nil {
+					return fmt.Errorf("normalised digest: %w", err)
+				}
+				defer st.Close()
+				if stFix, ok = st.(driver.StmtQueryContext); !ok {
+					return errors.New("ingest: driver statement cannot query with a context")
+				}
+			}
+			fixArg[0].Value = fx.x
+			text, err := queryText(ctx, stFix, fixArg, fixVal)
+			if err != nil {
+				return fmt.Errorf("normalised digest: printf('%%.8e', %v): %w", fx.x, err)
+			}
+			sum := uint64(b.args[fx.arg].Value.(int64)) + NormTerm(fx.pos, text, false)
+			b.args[fx.arg].Value = int64(sum)
+			normFixups.Add(1)
+		}
 		if b.n > 0 && b.src != curSrc {
 			closeFull()
 			var err error
@@ -168,6 +217,45 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 	return nil
 }
 
+// normFixups counts the REAL values whose normalised text SQLite decided (tests assert the
+// path ran).
+var normFixups atomic.Int64
+
+// queryText runs a one-row, one-column query and returns its value as text.
+func queryText(ctx context.Context, st driver.StmtQueryContext, args []driver.NamedValue, vals []driver.Value) (string, error) {
+	rows, err := st.QueryContext(ctx, args)
+	if err != nil {
+		return "", err
+	}
+	defer rows.Close()
+	if err := rows.Next(vals); err != nil {
+		return "", err
+	}
+	switch v := vals[0].(type) {
+	case string:
+		return v, nil
+	case []byte:
+		return string(v), nil
+	}
+	return "", fmt.Errorf("got %T, not text", vals[0])
+}
+
+// normScratch is the producer's state for the normalised digest: each column's posHash and
+// NULL term, and reused buffers (no allocation per value).
+type normScratch struct {
+	pos, null    []uint64
+	num, scratch []byte
+}
+
+func newNormScratch(n int) *normScratch {
+	z := &normScratch{pos: make([]uint64, n), null: make([]uint64, n), num: make([]byte, 0, 32), scratch: make([]byte, 0, 32)}
+	for i := range n {
+		z.pos[i] = posHash(i + 1)
+		z.null[i] = termNull(z.pos[i])
+	}
+	return z
+}
+
 func nullIfEmpty(s string) driver.Value {
 	if s == "" {
 		return nil
@@ -198,6 +286,7 @@ func (l *loader) produce(ctx context.Context, free <-chan *batch, full chan<- *b
 			b.arena = b.arena[:0]
 			b.src = src
 			b.rejects = b.rejects[:0]
+			b.fixes = b.fixes[:0]
 			return nil
 		case <-ctx.Done():
 			return ctx.Err()
@@ -249,6 +338,7 @@ func (l *loader) produceSource(ctx context.Context, si int, s *source, rr record
 	if err != nil {
 		return err
 	}
+	nz := newNormScratch(len(l.cols))
 	records := 0
 	for {
 		ok, err := rr.next()
@@ -263,6 +353,7 @@ func (l *loader) produceSource(ctx context.Context, si int, s *source, rr record
 		}
 		records++
 		b := *bp
+		off := l.sysBound()
 		r := rr.rec()
 		if p := l.rowProblem(s, r, conv); p != nil {
 			if l.inferring && l.opts.OnError != "fail" {
@@ -298,10 +389,12 @@ func (l *loader) produceSource(ctx context.Context, si int, s *source, rr record
 		args := b.args[b.n*width : (b.n+1)*width]
 		args[0].Value = r.line
 		d.Reset()
+		var ns uint64 // the row's normalised digest: the sum of its columns' NormTerm
 		for i, f := range r.fields {
 			if l.isMissing(f) {
-				args[2+i].Value = nil
+				args[off+i].Value = nil
 				d.Null()
+				ns += nz.null[i]
 				continue
 			}
 			var v driver.Value
@@ -331,8 +424,10 @@ func (l *loader) produceSource(ctx context.Context, si int, s *source, rr record
 			case int64:
 				if !l.lenient[i] && l.types[i] == TypeInteger && !(len(f) == 2 && f[0] == '-') {
 					d.intText(f) // strict integers are already AppendInt's text ("-0" is not)
+					ns += termBytes(nz.pos[i], f)
 				} else {
 					d.Int(x)
+					ns += termBytes(nz.pos[i], strconv.AppendInt(nz.num[:0], x, 10))
 				}
 			case float64:
 				if t := trimFraction(f); realTextCanonical(t) {
@@ -340,12 +435,22 @@ func (l *loader) produceSource(ctx context.Context, si int, s *source, rr record
 				} else {
 					d.Real(x)
 				}
+				var sure bool
+				if nz.num, nz.scratch, sure = appendNormReal(nz.num[:0], nz.scratch, x); sure {
+					ns += termBytes(nz.pos[i], nz.num)
+				} else if l.normDigest {
+					b.fixes = append(b.fixes, normFix{arg: b.n*width + 2, pos: i + 1, x: x})
+				}
 			case string:
 				d.Text(x)
+				ns += termText(nz.pos[i], x)
 			}
-			args[2+i].Value = v
+			args[off+i].Value = v
 		}
 		args[1].Value = d.Sum()
+		if l.normDigest {
+			args[2].Value = int64(ns)
+		}
 		*rowID++
 		s.rows++
 		b.n++

@@ -71,6 +71,10 @@ type Result struct {
 	Passes int
 	// DigestCheckSQL lists rows whose values no longer match their ss_digest (empty = intact).
 	DigestCheckSQL string
+	// NormDigestCheckSQL lists rows whose normalised values no longer match their
+	// ss_norm_digest (empty = intact); "" when the appended table has no ss_norm_digest
+	// (made by an older version).
+	NormDigestCheckSQL string
 }
 
 // Problem is a bad input row or value, located. It is the error Load returns for bad data.
@@ -118,6 +122,9 @@ type loader struct {
 	// value changes a column's type decision.
 	inferring bool
 	replaced  bool // the old table of a --replace is gone
+	// normDigest: the table has ss_norm_digest (every table but one appended to that an
+	// older version made).
+	normDigest bool
 }
 
 // Load reads the inputs and loads them into one table on conn, inside the caller's
@@ -340,6 +347,7 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 		}
 		l.mode = "create"
 		l.firstRow = 1
+		l.normDigest = true
 		return nil
 	case typ != "table":
 		return usagef("%q is a %s, not a table", name, typ)
@@ -355,6 +363,7 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 	switch {
 	case l.opts.Replace:
 		l.mode, l.firstRow = "replace", 1
+		l.normDigest = true
 		if splits := dependentSplits(ctx, conn, name); len(splits) > 0 {
 			return usagef("--replace: table %q has splits (%s) that refer to its rows; replacing it would leave them describing rows that no longer exist: load into another --table or a new --db", name, strings.Join(splits, ", "))
 		}
@@ -382,6 +391,12 @@ func (l *loader) target(ctx context.Context, conn *sql.Conn) error {
 		if len(l.existing) == 0 {
 			return usagef("--append: table %q was not made by splitsmith ingest (no ss_columns rows)", name)
 		}
+		// A table made before ss_norm_digest existed is appended to without it.
+		var has int
+		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM pragma_table_info(?) WHERE name = 'ss_norm_digest'`, name).Scan(&has); err != nil {
+			return fmt.Errorf("read columns of %s: %w", name, err)
+		}
+		l.normDigest = has > 0
 	default:
 		return usagef("table %q already exists (%d rows): give --replace to overwrite it or --append to add rows", name, n)
 	}
@@ -670,7 +685,7 @@ func (l *loader) create(ctx context.Context, conn *sql.Conn) error {
 		}
 	}
 	var b strings.Builder
-	b.WriteString("CREATE TABLE " + quoteIdent(l.table) + " (\n  ss_row INTEGER PRIMARY KEY,\n  ss_source TEXT NOT NULL,\n  ss_line INTEGER NOT NULL,\n  ss_digest INTEGER NOT NULL")
+	b.WriteString("CREATE TABLE " + quoteIdent(l.table) + " (\n  ss_row INTEGER PRIMARY KEY,\n  ss_source TEXT NOT NULL,\n  ss_line INTEGER NOT NULL,\n  ss_digest INTEGER NOT NULL,\n  ss_norm_digest INTEGER NOT NULL")
 	for i, c := range l.cols {
 		b.WriteString(",\n  " + quoteIdent(c) + " " + l.types[i].SQLType())
 	}
@@ -723,8 +738,27 @@ func (l *loader) record(ctx context.Context, conn *sql.Conn, res *Result) error 
 	}
 	q.WriteString(") ORDER BY ss_row")
 	res.DigestCheckSQL = q.String()
+	if l.normDigest {
+		res.NormDigestCheckSQL = l.normDigestCheckSQL()
+	}
 	res.Problems = l.problems
 	return nil
+}
+
+// normDigestCheckSQL is the stock-SQL recomputation of ss_norm_digest: SQLite normalises
+// every value (NormExprSQL: the text normalisation, decimal integers, printf('%.8e') for
+// REAL) and ingest_norm_digest sums their terms.
+func (l *loader) normDigestCheckSQL() string {
+	var q strings.Builder
+	q.WriteString("SELECT ss_row FROM " + quoteIdent(l.table) + " WHERE ss_norm_digest IS NOT ingest_norm_digest(")
+	for i, c := range l.cols {
+		if i > 0 {
+			q.WriteString(", ")
+		}
+		q.WriteString(NormExprSQL(l.types[i].SQLType(), quoteIdent(c)))
+	}
+	q.WriteString(") ORDER BY ss_row")
+	return q.String()
 }
 
 // converter turns field bytes into stored values.

@@ -123,7 +123,7 @@ func TestLoad_DigestGoEqualsSQL(t *testing.T) {
 		t.Errorf("digest check returned %v", bad)
 	}
 	for _, r := range query(t, db.DB, `SELECT * FROM pipes`) {
-		want, err := Digest(r[4:]...)
+		want, err := Digest(r[5:]...)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -582,6 +582,8 @@ func TestLoad_WithRestarts(t *testing.T) {
 		"header":       TestLoad_HeaderProblems,
 		"batches":      TestLoad_ManyBatchesAcrossInputs,
 		"real digests": TestLoad_RealDigestShortcut,
+		"norm digests": TestLoad_NormDigestMatchesSQLite,
+		"norm append":  TestLoad_AppendToTableWithoutNormDigest,
 	} {
 		t.Run(name, f)
 	}

@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"database/sql/driver"
+	"strconv"
 
 	"splitsmith/internal/sqlfn"
 )
@@ -23,6 +24,44 @@ func SQL() (set sqlfn.Set) {
 					vals[i] = a
 				}
 				return Digest(vals...)
+			},
+		},
+		{
+			Name: "ingest_norm_term", NArgs: 2, Deterministic: true, Args: "pos, norm",
+			Doc: "one value's term of the normalised digest (ss_norm_digest): pos is the column's 1-based position, norm its normalised text or NULL",
+			Examples: []sqlfn.Example{
+				{SQL: "SELECT ingest_norm_term(1, 'cast iron')", Want: "7959175019168693180"},
+				{SQL: "SELECT ingest_norm_term(2, NULL)", Want: "-8295276720888618180"},
+			},
+			Scalar: func(args []driver.Value) (driver.Value, error) {
+				pos, err := sqlfn.Int(args, 0, "pos")
+				if err != nil {
+					return nil, err
+				}
+				norm, null, err := normArg(args, 1, "norm")
+				if err != nil {
+					return nil, err
+				}
+				return int64(NormTerm(int(pos), norm, null)), nil
+			},
+		},
+		{
+			Name: "ingest_norm_digest", NArgs: -1, Deterministic: true, Args: "t1, ..., tn",
+			Doc: "the normalised digest of a row, as stored in ss_norm_digest: the sum mod 2^64 of ingest_norm_term(i, ti) over already-normalised texts in column order (NULL is a value, not propagated)",
+			Examples: []sqlfn.Example{
+				{SQL: "SELECT ingest_norm_digest('cast iron', NULL, 42, '1.50000000e+00')", Want: "-1781022874211523639"},
+				{SQL: "SELECT ingest_norm_digest(lower(trim('  Cast IRON ')), NULL, 42, printf('%.8e', 1.5))", Want: "-1781022874211523639"},
+			},
+			Scalar: func(args []driver.Value) (driver.Value, error) {
+				var sum uint64
+				for i := range args {
+					norm, null, err := normArg(args, i, "t"+strconv.Itoa(i+1))
+					if err != nil {
+						return nil, err
+					}
+					sum += NormTerm(i+1, norm, null)
+				}
+				return int64(sum), nil
 			},
 		},
 		{

@@ -6,92 +6,27 @@ import (
 	"strconv"
 	"strings"
 	"unicode/utf8"
+
+	"splitsmith/ingest"
 )
 
 // NormalizeValue is the text normalisation of exact_duplicate (and the SQL function
-// leak_norm): tabs, carriage returns and line feeds become spaces, runs of spaces collapse to
-// one, the ends are trimmed of spaces and ASCII letters are lower-cased. It is defined by the
-// same string operations as its stock-SQL form (NormalizeSQL), so stored queries reproduce it
-// with plain SQLite: lower(trim(collapse(x))), where collapse replaces ' ' by ' '||char(1),
-// removes char(1)||' ' and then char(1).
-func NormalizeValue(s string) string {
-	switch normalizedState(s) {
-	case isNormal:
-		return s
-	case onlyUpper:
-		return asciiLower(s)
-	}
-	return normalizeFull(s)
-}
+// leak_norm): ingest.NormalizeText, the one the normalised digest stored at ingest
+// (ss_norm_digest) uses. Tabs, carriage returns and line feeds become spaces, runs of spaces
+// collapse to one, the ends are trimmed of spaces and ASCII letters are lower-cased; its
+// stock-SQL form is NormalizeSQL.
+func NormalizeValue(s string) string { return ingest.NormalizeText(s) }
 
-// normalizeFull is NormalizeValue without the shortcut for values already normalised.
-func normalizeFull(s string) string {
-	s = strings.ReplaceAll(s, "\t", " ")
-	s = strings.ReplaceAll(s, "\n", " ")
-	s = strings.ReplaceAll(s, "\r", " ")
-	s = strings.ReplaceAll(s, " ", " \x01")
-	s = strings.ReplaceAll(s, "\x01 ", "")
-	s = strings.ReplaceAll(s, "\x01", "")
-	s = strings.Trim(s, " ")
-	return asciiLower(s)
-}
+// normalizeFull is NormalizeValue (the shortcut for values already normalised is tested in
+// ingest against the full string operations).
+func normalizeFull(s string) string { return ingest.NormalizeText(s) }
 
-// NormalizeSQL is NormalizeValue as a stock SQLite expression over expr.
-func NormalizeSQL(expr string) string {
-	return fmt.Sprintf(`lower(trim(replace(replace(replace(replace(replace(replace(%s, char(9), ' '), char(10), ' '), char(13), ' '), ' ', ' ' || char(1)), char(1) || ' ', ''), char(1), '')))`, expr)
-}
+// NormalizeSQL is NormalizeValue as a stock SQLite expression over expr
+// (ingest.NormalizeTextSQL).
+func NormalizeSQL(expr string) string { return ingest.NormalizeTextSQL(expr) }
 
-// normalized reports whether NormalizeValue leaves s as it is: no tab, line break, \x01 or
-// ASCII capital, no run of spaces and no space at either end (checked in one pass, no copy).
-func normalized(s string) bool { return normalizedState(s) == isNormal }
-
-const (
-	isNormal  = iota // NormalizeValue(s) == s
-	onlyUpper        // NormalizeValue(s) == asciiLower(s): only ASCII capitals to change
-	needsFull        // spaces, tabs, line breaks or \x01 to change
-)
-
-func normalizedState(s string) int {
-	if s == "" {
-		return isNormal
-	}
-	if s[0] == ' ' || s[len(s)-1] == ' ' {
-		return needsFull
-	}
-	state := isNormal
-	prevSpace := false
-	for i := 0; i < len(s); i++ {
-		switch c := s[i]; {
-		case c == ' ':
-			if prevSpace {
-				return needsFull
-			}
-			prevSpace = true
-			continue
-		case c == '\t' || c == '\n' || c == '\r' || c == 1:
-			return needsFull
-		case c >= 'A' && c <= 'Z':
-			state = onlyUpper
-		}
-		prevSpace = false
-	}
-	return state
-}
-
-func asciiLower(s string) string {
-	for i := 0; i < len(s); i++ {
-		if c := s[i]; c >= 'A' && c <= 'Z' {
-			b := []byte(s)
-			for j := i; j < len(b); j++ {
-				if b[j] >= 'A' && b[j] <= 'Z' {
-					b[j] += 'a' - 'A'
-				}
-			}
-			return string(b)
-		}
-	}
-	return s
-}
+// normalized reports whether NormalizeValue leaves s as it is.
+func normalized(s string) bool { return ingest.NormalizeText(s) == s }
 
 // RoundSignificantSQL rounds a number to digits significant digits as text with SQLite's
 // own printf('%.{digits-1}e', x) (e.g. 3 digits: 1234.5 -> '1.23e+03'). The audit has SQLite

@@ -20,7 +20,7 @@ type ExportOptions struct {
 	Fold   int    // 0: the whole side; k: the rows of fold k (Part says which part)
 	Part   string // with Fold: "test" (default: rows with fold = k) or "train"
 	Format string // csv (default) or jsonl
-	System bool   // include ss_row, ss_source, ss_line, ss_digest
+	System bool   // include ss_row, ss_source, ss_line, ss_digest, ss_norm_digest (when the table has it)
 }
 
 // Export streams one side (or one fold's part of it) of a split to w, in ss_row order, and
@@ -80,7 +80,7 @@ func Export(ctx context.Context, conn *sql.Conn, o ExportOptions, w io.Writer) (
 	}
 	var cols []string
 	if o.System {
-		cols = append(cols, systemColumns...)
+		cols = append(cols, t.system...)
 	}
 	for _, c := range t.Columns {
 		cols = append(cols, c.Name)

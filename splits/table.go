@@ -18,9 +18,15 @@ type Column struct {
 type Table struct {
 	Name    string
 	Columns []Column // user columns in table order
+	system  []string // the system columns it has, in table order
 }
 
-var systemColumns = []string{"ss_row", "ss_source", "ss_line", "ss_digest"}
+// systemColumns are the system columns every ingested table has; optionalSystem those a table
+// made by an older version may lack (ss_norm_digest, the normalised digest).
+var (
+	systemColumns  = []string{"ss_row", "ss_source", "ss_line", "ss_digest"}
+	optionalSystem = []string{"ss_norm_digest"}
+)
 
 func quoteIdent(s string) string  { return `"` + strings.ReplaceAll(s, `"`, `""`) + `"` }
 func quoteString(s string) string { return `'` + strings.ReplaceAll(s, `'`, `''`) + `'` }
@@ -69,6 +75,7 @@ func ReadTable(ctx context.Context, conn *sql.Conn, name string) (*Table, error)
 		c := ct.Name()
 		if isSystem(c) {
 			sys[c] = true
+			t.system = append(t.system, c)
 			continue
 		}
 		t.Columns = append(t.Columns, Column{Name: c, Logical: strings.ToUpper(ct.DatabaseTypeName())})
@@ -99,6 +106,11 @@ func ReadTable(ctx context.Context, conn *sql.Conn, name string) (*Table, error)
 
 func isSystem(c string) bool {
 	for _, s := range systemColumns {
+		if s == c {
+			return true
+		}
+	}
+	for _, s := range optionalSystem {
 		if s == c {
 			return true
 		}

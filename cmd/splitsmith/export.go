@@ -28,7 +28,8 @@ func newExportCommand(s stdio) *cli.Command {
 --out FILE (written beside its target and renamed into place when complete). With --fold K,
 only fold K's test rows (--part test, default) or its training rows (--part train).
 CSV has a header and writes NULL as an empty field; JSON Lines writes one object per row.
-User columns only, unless --system adds ss_row, ss_source, ss_line and ss_digest.
+User columns only, unless --system adds ss_row, ss_source, ss_line, ss_digest and
+ss_norm_digest.
 
 Examples:
    splitsmith export --db pipes.db --split sound --side train --out train.csv

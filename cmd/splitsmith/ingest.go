@@ -149,8 +149,15 @@ func runIngest(ctx context.Context, cc *cli.Context, o ingestOptions, s stdio) e
 		tx.SetDetail("on_error", opts.OnError)
 		tx.SetDetail("missing", opts.Missing)
 		tx.SetDetail("columns", cols)
-		return tx.AddAuditQuery(ctx, "ingest:"+r.Table, "digest", "check",
-			"rows whose user values no longer match their ss_digest (empty = unchanged since load)", r.DigestCheckSQL, true)
+		if err := tx.AddAuditQuery(ctx, "ingest:"+r.Table, "digest", "check",
+			"rows whose user values no longer match their ss_digest (empty = unchanged since load)", r.DigestCheckSQL, true); err != nil {
+			return err
+		}
+		if r.NormDigestCheckSQL == "" { // appended to a table made before ss_norm_digest existed
+			return nil
+		}
+		return tx.AddAuditQuery(ctx, "ingest:"+r.Table, "norm_digest", "check",
+			"rows whose normalised values no longer match their ss_norm_digest (empty = unchanged since load)", r.NormDigestCheckSQL, true)
 	})
 	if err != nil {
 		return err

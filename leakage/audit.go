@@ -15,6 +15,8 @@ import (
 	"strings"
 	"sync/atomic"
 	"time"
+
+	"splitsmith/ingest"
 )
 
 // sqlBuiltKeys has SQLite build the duplicate keys while it reads, when no check needs the
@@ -106,6 +108,7 @@ func (r *Report) Worst() Severity {
 
 type colInfo struct {
 	Name, Logical, SQLType string
+	Pos                    int // 1-based position in ss_columns
 }
 
 type column struct {
@@ -156,7 +159,11 @@ type audit struct {
 	needed              map[string]bool // columns the selected checks read
 	rawNeeded           map[string]bool // columns read as values, not only in rounded form
 	useDigest           bool            // load ss_digest
-	countEntity         bool            // count entity values per side while reading (shared_entity)
+	ran                 []*Check
+	hasNormDigest       bool // the table has ss_norm_digest
+	useNormDigest       bool // load ss_norm_digest (normkey.go)
+	normDigest          []int64
+	countEntity         bool // count entity values per side while reading (shared_entity)
 	counted             map[string]*entityCounter
 	sqlKeys             map[string][]string // key SQL -> each row's key, built by SQLite
 	stream              []keySpec           // keys hashed while the rows are read
@@ -246,6 +253,17 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 			switch {
 			case k.digest:
 				a.useDigest = true
+			case a.normDigestServes(k) && !keysInSQL:
+				a.useNormDigest = true
+				for _, x := range a.excluded() {
+					need(x.Name)
+					if x.SQLType == "REAL" {
+						a.roundReal = append(a.roundReal, ingest.NormDigits)
+					}
+				}
+				if c == NearDuplicateNumeric {
+					need(a.feature...) // its near key is read and rounded
+				}
 			case keysInSQL:
 				a.sqlKeys[a.keySQL(k, "t")] = nil
 				if c == NearDuplicateNumeric {
@@ -291,6 +309,7 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 	if a.auditID, err = res.LastInsertId(); err != nil {
 		return nil, err
 	}
+	a.ran = run
 	rep := &Report{AuditID: a.auditID, Split: a.split, Table: a.table, Rows: len(a.rowID), Sides: a.sides, Skipped: a.skipped}
 	for _, c := range run {
 		a.check = c
@@ -344,10 +363,31 @@ func (a *audit) resolved(rep *Report) map[string]any {
 	for _, s := range rep.Skipped {
 		skipped[s.Check] = s.Reason
 	}
-	return map[string]any{
+	out := map[string]any{
 		"checks": rep.Ran, "skipped": skipped, "label": a.label, "text": orEmpty(a.text), "time": a.timeCol,
 		"entity": orEmpty(a.entity), "features": orEmpty(a.feature), "params": params,
 	}
+	if k := a.exactKeySource(); k != "" {
+		out["exact_key"] = k
+	}
+	return out
+}
+
+// exactKeySource says where the exact-duplicate key came from: the stored digests, or the
+// values read; "" when no check used it.
+func (a *audit) exactKeySource() string {
+	switch {
+	case a.useDigest:
+		return "ss_digest"
+	case a.useNormDigest:
+		return "ss_norm_digest"
+	}
+	for _, c := range a.ran {
+		if c == ExactDuplicate || c == LabelConflict || c == NearDuplicateNumeric {
+			return "values"
+		}
+	}
+	return ""
 }
 
 func orEmpty(s []string) []string {
@@ -441,19 +481,28 @@ func (a *audit) loadSplit() error {
 	if err := rows.Err(); err != nil {
 		return err
 	}
-	crows, err := a.conn.QueryContext(a.ctx, `SELECT name, logical_type, sql_type FROM ss_columns WHERE table_name = ? ORDER BY position`, a.table)
+	crows, err := a.conn.QueryContext(a.ctx, `SELECT name, logical_type, sql_type, position FROM ss_columns WHERE table_name = ? ORDER BY position`, a.table)
 	if err != nil {
 		return fmt.Errorf("read columns of %s: %w", a.table, err)
 	}
 	defer crows.Close()
 	for crows.Next() {
 		var c colInfo
-		if err := crows.Scan(&c.Name, &c.Logical, &c.SQLType); err != nil {
+		if err := crows.Scan(&c.Name, &c.Logical, &c.SQLType, &c.Pos); err != nil {
 			return err
 		}
 		a.cols = append(a.cols, c)
 	}
-	return crows.Err()
+	if err := crows.Err(); err != nil {
+		return err
+	}
+	// Tables ingested before the normalised digest existed have none.
+	var n int
+	if err := a.conn.QueryRowContext(a.ctx, `SELECT count(*) FROM pragma_table_info(?) WHERE name = 'ss_norm_digest'`, a.table).Scan(&n); err != nil {
+		return fmt.Errorf("read columns of %s: %w", a.table, err)
+	}
+	a.hasNormDigest = n == 1
+	return nil
 }
 
 func (a *audit) resolveColumns() error {
@@ -549,8 +598,15 @@ func (a *audit) loadRows() error {
 		fmt.Fprintf(&sel, " WHEN %s THEN %d", quoteString(sd.Name), i)
 	}
 	sel.WriteString(" ELSE r.side END")
+	first := 2 // first user column in the result
 	if a.useDigest {
 		sel.WriteString(", t.ss_digest")
+		first++
+	}
+	normAt := first
+	if a.useNormDigest {
+		sel.WriteString(", t.ss_norm_digest")
+		first++
 	}
 	a.data = map[string]*column{}
 	var cols []*column
@@ -576,10 +632,6 @@ func (a *audit) loadRows() error {
 		}
 		cols = append(cols, col)
 		a.data[c.Name] = col
-	}
-	first := 2 // first user column in the result
-	if a.useDigest {
-		first = 3
 	}
 	type rnd struct {
 		col *column
@@ -634,6 +686,9 @@ func (a *audit) loadRows() error {
 	a.side = make([]int, 0, total)
 	if a.useDigest {
 		a.digest = make([]int64, 0, total)
+	}
+	if a.useNormDigest {
+		a.normDigest = make([]int64, 0, total)
 	}
 	for _, c := range cols {
 		c.reserve(int(total))
@@ -710,6 +765,10 @@ func (a *audit) loadRows() error {
 		if a.useDigest {
 			d, _ := vals[2].(int64)
 			a.digest = append(a.digest, d)
+		}
+		if a.useNormDigest {
+			d, _ := vals[normAt].(int64)
+			a.normDigest = append(a.normDigest, d)
 		}
 		for i, c := range cols {
 			if c.roundOnly > 0 {

@@ -6,6 +6,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"os"
+	"reflect"
 	"strings"
 	"testing"
 )
@@ -434,5 +435,58 @@ func TestRun_TimeOverlapCompoundGap(t *testing.T) {
 	g := summarize(rep, "time_overlap")
 	if len(g) != 1 || g[0].subject != "gap" || rep.Findings[0].Score != 4*86400 {
 		t.Errorf("want one gap finding of 4 days (345600 s), got %+v", rep.Findings)
+	}
+}
+
+func TestRun_NormDigestKeysEqualValues(t *testing.T) {
+	// The exact-duplicate key from ss_norm_digest (the stored digest minus the excluded
+	// columns' terms) must group as the key built from every feature value does. The digest
+	// is filled by SQLite with the recomputation SQL (fixture.fillNormDigest), so SQLite's own
+	// printf is the reference for the REAL terms. procsFixture's depth holds exact halves at 9
+	// digits, where Go defers to SQLite; ignoring it puts its terms on the subtracted side.
+	keyChecks := []string{"exact_duplicate", "near_duplicate_numeric", "label_conflict"}
+	cases := []struct {
+		name string
+		f    *fixture
+		opts Options
+	}{
+		{"pipes", pipesFixture(), Options{Split: "naive", Label: "failed", Checks: keyChecks}},
+		{"procs", procsFixture(), Options{Split: "s", Label: "failed", Checks: keyChecks}},
+		{"procs, depth ignored", procsFixture(), Options{Split: "s", Label: "failed", Checks: keyChecks, Ignore: []string{"depth", "age"}}},
+		{"procs, no entity", procsFixture(), Options{Split: "s", Checks: []string{"exact_duplicate"}, Entity: []string{}, Ignore: []string{"diameter"}}},
+	}
+	for _, c := range cases {
+		path := c.f.create(t)
+		viaDigest, err := runAudit(t, path, c.opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		normDigestKeys = false
+		viaValues, err := runAudit(t, path, c.opts)
+		normDigestKeys = true
+		if err != nil {
+			t.Fatal(err)
+		}
+		if a, b := viaDigest.Resolved["exact_key"], viaValues.Resolved["exact_key"]; a != "ss_norm_digest" || b != "values" {
+			t.Errorf("%s: exact_key %v and %v, want ss_norm_digest and values", c.name, a, b)
+		}
+		if len(viaDigest.Findings) == 0 || !reflect.DeepEqual(viaDigest.Findings, viaValues.Findings) {
+			t.Errorf("%s: %d findings from ss_norm_digest, %d from the values, or they differ", c.name, len(viaDigest.Findings), len(viaValues.Findings))
+		}
+		for name, n := range replay(t, path, c.opts.Split) {
+			if n != 0 {
+				t.Errorf("%s: stored query %s returns %d rows, want 0", c.name, name, n)
+			}
+		}
+	}
+	// A table ingested before ss_norm_digest existed: the values are read.
+	f := pipesFixture()
+	f.noNormDigest = true
+	rep, err := runAudit(t, f.create(t), Options{Split: "naive", Label: "failed", Checks: keyChecks})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rep.Resolved["exact_key"] != "values" || len(summarize(rep, "exact_duplicate")) != 3 {
+		t.Errorf("table without ss_norm_digest: exact_key %v, %v", rep.Resolved["exact_key"], summarize(rep, "exact_duplicate"))
 	}
 }

@@ -31,6 +31,8 @@ type fixture struct {
 	groups  []string
 	timeCol string
 	gap     string
+	// noNormDigest makes a table as ingested before ss_norm_digest existed.
+	noNormDigest bool
 }
 
 func sets() []sqlfn.Set { return []sqlfn.Set{ingest.SQL(), SQL()} }
@@ -52,7 +54,21 @@ func (f *fixture) createAt(t testing.TB, path string) string {
 	return path
 }
 
-func (f *fixture) write(ctx context.Context, c *sql.Conn, runID int64) error {
+// fillNormDigest adds ss_norm_digest as ingest stores it, computed by SQLite with the
+// recomputation SQL (ingest.NormExprSQL and ingest_norm_digest): SQLite itself rounds.
+func (f *fixture) fillNormDigest(ctx context.Context, c *sql.Conn) error {
+	if _, err := c.ExecContext(ctx, fmt.Sprintf(`ALTER TABLE %s ADD COLUMN ss_norm_digest INTEGER`, quoteIdent(f.table))); err != nil {
+		return err
+	}
+	var exprs []string
+	for _, col := range f.cols {
+		exprs = append(exprs, ingest.NormExprSQL(col.sqlType, quoteIdent(col.name)))
+	}
+	_, err := c.ExecContext(ctx, fmt.Sprintf(`UPDATE %s SET ss_norm_digest = ingest_norm_digest(%s)`, quoteIdent(f.table), strings.Join(exprs, ", ")))
+	return err
+}
+
+func (f *fixture) write(ctx context.Context, c *sql.Conn, runID int64) (err error) {
 	var defs []string
 	for _, col := range f.cols {
 		defs = append(defs, fmt.Sprintf("%s %s", quoteIdent(col.name), col.sqlType))
@@ -61,6 +77,13 @@ func (f *fixture) write(ctx context.Context, c *sql.Conn, runID int64) error {
 		quoteIdent(f.table), strings.Join(defs, ", "))); err != nil {
 		return err
 	}
+	if !f.noNormDigest {
+		defer func() {
+			if err == nil {
+				err = f.fillNormDigest(ctx, c)
+			}
+		}()
+	}
 	for i, col := range f.cols {
 		if _, err := c.ExecContext(ctx, `INSERT INTO ss_columns(table_name, position, name, logical_type, sql_type, reason, missing) VALUES(?,?,?,?,?,'fixture',0)`,
 			f.table, i+1, col.name, col.logical, col.sqlType); err != nil {
@@ -68,7 +91,11 @@ func (f *fixture) write(ctx context.Context, c *sql.Conn, runID int64) error {
 		}
 	}
 	ph := strings.TrimSuffix(strings.Repeat("?,", len(f.cols)+4), ",")
-	ins, err := c.PrepareContext(ctx, fmt.Sprintf(`INSERT INTO %s VALUES(%s)`, quoteIdent(f.table), ph))
+	var names []string
+	for _, col := range f.cols {
+		names = append(names, quoteIdent(col.name))
+	}
+	ins, err := c.PrepareContext(ctx, fmt.Sprintf(`INSERT INTO %s (ss_row, ss_source, ss_line, ss_digest, %s) VALUES(%s)`, quoteIdent(f.table), strings.Join(names, ", "), ph))
 	if err != nil {
 		return err
 	}

@@ -103,6 +103,9 @@ func (a *audit) keys(k keySpec) []uint64 {
 		}
 		return out
 	}
+	if a.useNormDigest && a.normDigestServes(k) {
+		return a.normKeys()
+	}
 	if ks, ok := a.streamed[a.keySQL(k, "t")]; ok && len(ks) == len(out) {
 		copy(out, ks) // hashed while the rows were read
 		return out

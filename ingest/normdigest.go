@@ -54,24 +54,37 @@ func NormTerm(pos int, norm string, null bool) uint64 {
 	return fmix64(fnvString(fnvByte(h, 'v'), norm))
 }
 
-// termText is NormTerm(pos, NormalizeText(s), false) from the column's posHash, without a
-// copy of s unless it has whitespace to fix (the rare case).
+// termText is NormTerm(pos, NormalizeText(s), false) from the column's posHash, in one pass
+// over s that hashes it lower-cased (normalizedState's checks inline), without a copy of s
+// unless it has whitespace to fix (the rare case).
 func termText(ph uint64, s string) uint64 {
 	h := fnvByte(ph, 'v')
-	switch normalizedState(s) {
-	case isNormal:
-		return fmix64(fnvString(h, s))
-	case onlyUpper:
-		for i := 0; i < len(s); i++ {
-			c := s[i]
-			if c >= 'A' && c <= 'Z' {
-				c += 'a' - 'A'
-			}
-			h = fnvByte(h, c)
-		}
+	if s == "" {
 		return fmix64(h)
 	}
-	return fmix64(fnvString(h, normalizeFull(s)))
+	if s[0] == ' ' || s[len(s)-1] == ' ' {
+		return fmix64(fnvString(h, normalizeFull(s)))
+	}
+	prevSpace := false
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c == ' ':
+			if prevSpace {
+				return fmix64(fnvString(fnvByte(ph, 'v'), normalizeFull(s)))
+			}
+			prevSpace = true
+			h = fnvByte(h, c)
+			continue
+		case c == '\t' || c == '\n' || c == '\r' || c == 1:
+			return fmix64(fnvString(fnvByte(ph, 'v'), normalizeFull(s)))
+		case c >= 'A' && c <= 'Z':
+			c += 'a' - 'A'
+		}
+		prevSpace = false
+		h = fnvByte(h, c)
+	}
+	return fmix64(h)
 }
 
 // termBytes is NormTerm(pos, string(b), false) from the column's posHash.
@@ -341,9 +354,11 @@ var pow10f = [23]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10,
 // then decides with 17 digits). The text is appended to dst.
 func roundFast(dst []byte, x float64, digits int) (r []byte, ok, sure bool) {
 	ax := math.Abs(x)
-	// floor(log10 ax) to within one (fixed below): ax is in [2^(e2-1), 2^e2).
-	_, e2 := math.Frexp(ax)
-	e := int(math.Floor(float64(e2-1) * math.Log10E / math.Log2E))
+	// floor(log10 ax) to within one (fixed below): ax is in [2^be, 2^(be+1)) with be its
+	// binary exponent (ax is normal: the caller keeps ax >= 1e-290), and (be·78913) >> 18 is
+	// floor(be·log10 2) for every |be| <= 1100 (78913/2^18 = 0.3010292…; checked in a test).
+	be := int(math.Float64bits(ax)>>52&0x7ff) - 1023
+	e := (be * 78913) >> 18
 	var m float64
 	for try := 0; try < 2; try++ {
 		shift := digits - 1 - e
@@ -367,12 +382,11 @@ func roundFast(dst []byte, x float64, digits int) (r []byte, ok, sure bool) {
 			return dst, false, false
 		}
 	}
-	fl := math.Floor(m)
-	frac := m - fl
+	n := int64(m) // m is positive and under 10^11: truncation is floor
+	frac := m - float64(n)
 	if math.Abs(frac-0.5) < 1e-4 {
 		return dst, false, true
 	}
-	n := int64(fl)
 	if frac > 0.5 {
 		n++
 	}
@@ -380,10 +394,25 @@ func roundFast(dst []byte, x float64, digits int) (r []byte, ok, sure bool) {
 		n /= 10
 		e++
 	}
-	var nb [24]byte
-	dg := strconv.AppendInt(nb[:0], n, 10)
-	return appendSci(dst, x < 0, dg, e), true, true
+	var nb [12]byte // n has digits (at most 11) digits: written two at a time
+	u := uint64(n)
+	k := digits
+	for ; k >= 2; k -= 2 {
+		q := u / 100
+		r := u - q*100
+		nb[k-1], nb[k-2] = digitPairs[2*r+1], digitPairs[2*r]
+		u = q
+	}
+	if k == 1 {
+		nb[0] = byte('0' + u)
+	}
+	return appendSci(dst, x < 0, nb[:digits], e), true, true
 }
+
+// digitPairs holds "00".."99".
+const digitPairs = "00010203040506070809101112131415161718192021222324252627282930313233343536373839" +
+	"40414243444546474849505152535455565758596061626364656667686970717273747576777879" +
+	"8081828384858687888990919293949596979899"
 
 func pow10i(n int) int {
 	p := 1
@@ -417,7 +446,10 @@ func appendSci(dst []byte, neg bool, digits []byte, exp int) []byte {
 		dst = append(dst, '+')
 	}
 	if exp < 10 {
-		dst = append(dst, '0')
+		return append(dst, '0', byte('0'+exp))
+	}
+	if exp < 100 {
+		return append(dst, byte('0'+exp/10), byte('0'+exp%10))
 	}
 	return strconv.AppendInt(dst, int64(exp), 10)
 }

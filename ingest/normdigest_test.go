@@ -460,3 +460,14 @@ func BenchmarkNormTerms(b *testing.B) {
 		_ = ns
 	}
 }
+
+// roundFast's decimal exponent estimate (be·78913) >> 18 equals floor(be·log10 2) over the
+// binary exponents it meets (checked also with /usr/bin/python3:
+// all((k*78913)>>18 == math.floor(k*math.log10(2)) for k in range(-1100, 1101)) is True).
+func TestRoundFast_ExponentEstimate(t *testing.T) {
+	for be := -1100; be <= 1100; be++ {
+		if got, want := (be*78913)>>18, int(math.Floor(float64(be)*math.Log10(2))); got != want {
+			t.Fatalf("be=%d: estimate %d, floor(be·log10 2) = %d", be, got, want)
+		}
+	}
+}

@@ -44,7 +44,7 @@ func posHash(pos int) uint64 {
 }
 
 // NormTerm is one value's term of the normalised digest: FNV-1a 64 over pos (the column's
-// 1-based position in ss_columns) as 4 bytes big-endian, then 'n' for NULL or 'v' followed by
+// 1-based position in ss_columns, below 2^31) as 4 bytes big-endian, then 'n' for NULL or 'v' followed by
 // the normalised text, passed through MurmurHash3's fmix64 finaliser.
 func NormTerm(pos int, norm string, null bool) uint64 {
 	h := posHash(pos)

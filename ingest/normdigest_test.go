@@ -113,6 +113,9 @@ func TestSQL_NormExamplesEqualGo(t *testing.T) {
 		t.Errorf("checked %d examples, want %d", seen, len(want))
 	}
 	var msg string
+	if err := db.QueryRow(`SELECT ingest_norm_term(0, 'a')`).Scan(&msg); err == nil || !strings.Contains(err.Error(), "argument 1 (pos) must be a column position from 1, got 0") {
+		t.Errorf("position 0: %v", err)
+	}
 	if err := db.QueryRow(`SELECT ingest_norm_digest('a', 1.5)`).Scan(&msg); err == nil || !strings.Contains(err.Error(), "argument 2 (t2) must be normalised TEXT (for a REAL: printf('%.8e', x)), got REAL") {
 		t.Errorf("a REAL argument: %v", err)
 	}
@@ -218,7 +221,8 @@ func TestNormalizeText_MatchesSQLite(t *testing.T) {
 }
 
 // RoundSignificant (and so the REAL part of NormValue) must give SQLite's own
-// printf('%.{d-1}e', x) whenever it answers: random values of every magnitude, decimal
+// printf('%.{d-1}e', x) (the reference: printf of the bundled modernc.org/sqlite) whenever it
+// answers: random values of every magnitude, decimal
 // fractions, and exact binary halves (0.125 to 2 digits and 2.5 to 1 digit round half up in
 // SQLite's decimal approximation; Go's strconv rounds them to even).
 func TestRoundSignificant_MatchesSQLitePrintf(t *testing.T) {
@@ -318,8 +322,9 @@ const normCSV = "id,material,depth,ok,day,at,note\n" +
 	"8,steel,,true,2024-03-08,2024-03-08T12:00:00Z,ÉCOLE  École\n" +
 	"9,steel,-7.25,true,2024-03-09,2024-03-09T12:00:00Z,1e-5\n"
 
-// Every stored ss_norm_digest equals its recomputation by the stored SQL (SQLite does the
-// normalising and the rounding there: the reference), and the fix-up path through SQLite's
+// Every stored ss_norm_digest equals its recomputation by the stored SQL (the reference:
+// SQLite does the normalising and the rounding there, with the lower/trim/replace and
+// printf('%.8e') of the bundled modernc.org/sqlite), and the fix-up path through SQLite's
 // printf ran for the boundary values.
 func TestLoad_NormDigestMatchesSQLite(t *testing.T) {
 	path := filepath.Join(t.TempDir(), "t.db")

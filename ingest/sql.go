@@ -2,6 +2,8 @@ package ingest
 
 import (
 	"database/sql/driver"
+	"fmt"
+	"math"
 	"strconv"
 
 	"splitsmith/internal/sqlfn"
@@ -37,6 +39,9 @@ func SQL() (set sqlfn.Set) {
 				pos, err := sqlfn.Int(args, 0, "pos")
 				if err != nil {
 					return nil, err
+				}
+				if pos < 1 || pos > math.MaxInt32 {
+					return nil, fmt.Errorf("argument 1 (pos) must be a column position from 1, got %d", pos)
 				}
 				norm, null, err := normArg(args, 1, "norm")
 				if err != nil {

@@ -7,6 +7,8 @@ import (
 	"regexp"
 	"sort"
 	"strings"
+
+	"splitsmith/ingest"
 )
 
 // Severity of a finding: info < warn < error.
@@ -59,7 +61,7 @@ func (c *Check) param(name string) Param {
 	panic("leakage: check " + c.Name + " has no parameter " + name)
 }
 
-const exactDigits = 9
+const exactDigits = ingest.NormDigits
 
 // The catalog. Every user-visible check is one of these values.
 var (

@@ -490,3 +490,13 @@ func TestRun_NormDigestKeysEqualValues(t *testing.T) {
 		t.Errorf("table without ss_norm_digest: exact_key %v, %v", rep.Resolved["exact_key"], summarize(rep, "exact_duplicate"))
 	}
 }
+
+func TestRun_UnlistedSide(t *testing.T) {
+	// A row on a side that ss_split_sides does not list (a damaged split) is refused by name.
+	f := pipesFixture()
+	f.sides[5] = "stray"
+	_, err := runAudit(t, f.create(t), Options{Split: "naive", Checks: []string{"exact_duplicate"}})
+	if err == nil || !strings.Contains(err.Error(), `row 6 is on side "stray", which ss_split_sides does not list`) {
+		t.Errorf("err = %v", err)
+	}
+}

@@ -18,15 +18,18 @@ import (
 var rawQuery = ingest.QueryRaw
 
 // rawInserter writes rows of `width` values with multi-row INSERT statements of `per` rows
-// through the driver's statement interface (inside conn.Raw).
+// through the driver's statement interface (inside conn.Raw). prefix, when set, is SQL text
+// of literal values that starts every row (values that are the same in all rows, so they
+// are not bound a million times).
 type rawInserter struct {
-	ctx   context.Context
-	pc    driver.ConnPrepareContext
-	head  string
-	width int
-	per   int
-	args  []driver.NamedValue
-	full  driver.Stmt
+	ctx    context.Context
+	pc     driver.ConnPrepareContext
+	head   string
+	prefix string
+	width  int
+	per    int
+	args   []driver.NamedValue
+	full   driver.Stmt
 }
 
 func newRawInserter(ctx context.Context, dc any, head string, width, per int) (*rawInserter, error) {
@@ -45,7 +48,7 @@ func (r *rawInserter) add(vals ...driver.Value) error {
 		return nil
 	}
 	if r.full == nil {
-		st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.width, r.per))
+		st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.prefix, r.width, r.per))
 		if err != nil {
 			return err
 		}
@@ -66,7 +69,7 @@ func (r *rawInserter) flush() error {
 	if len(r.args) == 0 {
 		return nil
 	}
-	st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.width, len(r.args)/r.width))
+	st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.prefix, r.width, len(r.args)/r.width))
 	if err != nil {
 		return err
 	}
@@ -85,11 +88,12 @@ func rawExec(ctx context.Context, st driver.Stmt, args []driver.NamedValue) erro
 	return err
 }
 
-func multiRowSQL(head string, width, n int) string {
-	one := make([]byte, 0, 2*width+1)
+func multiRowSQL(head, prefix string, width, n int) string {
+	one := make([]byte, 0, len(prefix)+2*width+2)
 	one = append(one, '(')
+	one = append(one, prefix...)
 	for i := 0; i < width; i++ {
-		if i > 0 {
+		if i > 0 || prefix != "" {
 			one = append(one, ',')
 		}
 		one = append(one, '?')

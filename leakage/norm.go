@@ -17,16 +17,9 @@ import (
 // stock-SQL form is NormalizeSQL.
 func NormalizeValue(s string) string { return ingest.NormalizeText(s) }
 
-// normalizeFull is NormalizeValue (the shortcut for values already normalised is tested in
-// ingest against the full string operations).
-func normalizeFull(s string) string { return ingest.NormalizeText(s) }
-
 // NormalizeSQL is NormalizeValue as a stock SQLite expression over expr
 // (ingest.NormalizeTextSQL).
 func NormalizeSQL(expr string) string { return ingest.NormalizeTextSQL(expr) }
-
-// normalized reports whether NormalizeValue leaves s as it is.
-func normalized(s string) bool { return ingest.NormalizeText(s) == s }
 
 // RoundSignificantSQL rounds a number to digits significant digits as text with SQLite's
 // own printf('%.{digits-1}e', x) (e.g. 3 digits: 1234.5 -> '1.23e+03'). The audit has SQLite

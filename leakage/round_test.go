@@ -56,4 +56,3 @@ func TestRoundSignificant_MatchesSQLitePrintf(t *testing.T) {
 		t.Errorf("roundSignificant leaves %d uniform values to SQLite", left)
 	}
 }
-

@@ -234,16 +234,22 @@ func TestRoundSignificant_MatchesSQLitePrintf(t *testing.T) {
 		xs = append(xs, float64(r.IntN(2000000)-1000000)/math.Pow(10, float64(r.IntN(12))))
 		xs = append(xs, float64(r.IntN(1<<20)*2+1)/math.Pow(2, float64(r.IntN(30)+1)))
 	}
+	xs = append(xs, 0, -0.0, math.SmallestNonzeroFloat64, math.MaxFloat64)
+	answered, left := 0, 0
 	for d := 1; d <= MaxGoRoundDigits; d++ {
 		st, err := db.Prepare(fmt.Sprintf(`SELECT printf('%%.%de', ?)`, d-1))
 		if err != nil {
 			t.Fatal(err)
 		}
-		for _, x := range xs {
+		for i, x := range xs {
 			got, _, ok := RoundSignificant(nil, x, d)
 			if !ok {
+				if i >= 12 && i < 12+4500 && (i-12)%3 == 0 {
+					left++ // a value drawn uniformly
+				}
 				continue
 			}
+			answered++
 			var want string
 			if err := st.QueryRow(x).Scan(&want); err != nil {
 				t.Fatal(err)
@@ -253,6 +259,15 @@ func TestRoundSignificant_MatchesSQLitePrintf(t *testing.T) {
 			}
 		}
 		st.Close()
+	}
+	if _, _, ok := RoundSignificant(nil, 1.2345, MaxGoRoundDigits+1); ok {
+		t.Errorf("RoundSignificant answers for %d digits", MaxGoRoundDigits+1)
+	}
+	// Uniform values are near a rounding boundary with probability about 2×10^-4 per digit
+	// count: far fewer than 1% may be left to SQLite.
+	t.Logf("answered %d; uniform values left to SQLite: %d of %d", answered, left, 1500*MaxGoRoundDigits)
+	if left > 1500*MaxGoRoundDigits/100 {
+		t.Errorf("RoundSignificant leaves %d uniform values to SQLite", left)
 	}
 	// Exact halves at the kept digits are left to SQLite (its half-up answer is the one).
 	for _, c := range []struct {

@@ -1,8 +1,0 @@
-package leakage
-
-import (
-	"math"
-	"math/rand/v2"
-	"testing"
-)
-

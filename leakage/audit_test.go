@@ -500,3 +500,67 @@ func TestRun_UnlistedSide(t *testing.T) {
 		t.Errorf("err = %v", err)
 	}
 }
+
+func TestLeakingFeature_Multiclass(t *testing.T) {
+	// A label of three classes is scored one class against the rest, keeping per column the
+	// class it separates best. Constructed: x1 is above 100 exactly on the burst rows (burst
+	// against the rest: AUC 1 by construction); work_order is filled in exactly on the leak
+	// rows (missingness AUC 1 for leak); x2 = (7i mod 11) is noise.
+	f := &fixture{table: "m", split: "s", roles: map[string]string{"train": "train", "holdout": "holdout"}, order: []string{"train", "holdout"},
+		cols: []fixCol{{"kind", "TEXT", "TEXT"}, {"x1", "REAL", "REAL"}, {"x2", "REAL", "REAL"}, {"work_order", "TEXT", "TEXT"}}}
+	labs := []string{"burst", "leak", "none"}
+	for i := 0; i < 30; i++ {
+		k := labs[i%3]
+		x1 := float64(i)
+		if k == "burst" {
+			x1 += 100
+		}
+		var wo any
+		if k == "leak" {
+			wo = fmt.Sprintf("WO-%d", i)
+		}
+		f.rows = append(f.rows, []any{k, x1, float64((i * 7) % 11), wo})
+		side := "train"
+		if i%5 == 0 {
+			side = "holdout"
+		}
+		f.sides = append(f.sides, side)
+	}
+	path := f.create(t)
+	rep, err := runAudit(t, path, Options{Split: "s", Label: "kind", Checks: []string{"leaking_feature"}, Entity: []string{}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var flagged []string
+	var ranking []leakScore
+	for _, fd := range rep.Findings {
+		if fd.Severity == Error {
+			flagged = append(flagged, fmt.Sprintf("%s/%s %v %v", fd.Subject, fd.Item, fd.Score, fd.Evidence["positive_class"]))
+		}
+		if fd.Subject == "ranking" {
+			ranking = fd.Evidence["ranking"].([]leakScore)
+		}
+	}
+	if fmt.Sprint(flagged) != "[work_order/missingness_auc 1 leak x1/auc 1 burst]" {
+		t.Errorf("flagged = %v", flagged)
+	}
+	// x2's best class: leak, AUC 0.45 (scikit-learn 1.2.1 roc_auc_score on the same data gives
+	// burst 0.545, leak 0.45, none 0.505 one against the rest; leak is farthest from 0.5).
+	seen := false
+	for _, s := range ranking {
+		if s.Column == "x2" && s.Measure == "auc" {
+			seen = true
+			if s.Class != "leak" || math.Abs(s.Score-0.45) > 1e-12 {
+				t.Errorf("x2 ranked as %+v, want class leak, AUC 0.45", s)
+			}
+		}
+	}
+	if !seen {
+		t.Errorf("x2 missing from the ranking %+v", ranking)
+	}
+	for name, n := range replay(t, path, "s") {
+		if n != 0 {
+			t.Errorf("stored query %s returns %d rows, want 0", name, n)
+		}
+	}
+}

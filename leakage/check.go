@@ -131,7 +131,7 @@ var (
 	LeakingFeature = &Check{
 		Name:     "leaking_feature",
 		Title:    "a single column that predicts the label too well on its own",
-		Doc:      "For a binary label: each numeric column's AUC (Mann–Whitney U / (n1·n0), ties counted one half), each categorical column's AUC when every row is scored by its level's positive share (levels with fewer than `min_level` rows pooled), and each column's missingness AUC (is the value missing for one class?). For a numeric label: each numeric column's Spearman rank correlation. A column flagged here is often recorded after the outcome (a work order opened because the pipe failed) and will not exist at prediction time.",
+		Doc:      "For a binary label: each numeric column's AUC (Mann–Whitney U / (n1·n0), ties counted one half), each categorical column's AUC when every row is scored by its level's positive share (levels with fewer than `min_level` rows pooled), and each column's missingness AUC (is the value missing for one class?). A text label of three or more classes (at most max_levels) gets the same measures one class against the rest, keeping per column and measure the class it separates best. For a numeric label: each numeric column's Spearman rank correlation. A column flagged here is often recorded after the outcome (a work order opened because the pipe failed) and will not exist at prediction time.",
 		Requires: []string{"label"},
 		Params: []Param{
 			{"auc", 0.95, "flag AUC at or above this, or at or below 1 minus it (rule of thumb, no published source)"},

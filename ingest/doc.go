@@ -72,5 +72,5 @@
 //	                                 normalised texts (Result.NormDigestCheckSQL writes them)
 //	ingest_norm_term(pos, norm)      one column's term of that sum
 //	ingest_infer_type(text)          the type a column holding only that value would get
-//	ingest_norm(text)                trimmed, whitespace-collapsed, lower-cased text
+//	ingest_norm(text)                text as ss_norm_digest normalises it (NormalizeText)
 package ingest

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
-	"unicode"
 	"unicode/utf8"
 )
 
@@ -586,24 +585,4 @@ func realTextCanonical(b []byte) bool {
 		sig, exp = nFrac-z, -(z + 1)
 	}
 	return sig <= 15 && exp >= -4 && exp <= 5
-}
-
-// Norm normalises text for duplicate checks: surrounding whitespace trimmed, inner runs of
-// whitespace collapsed to one space, lower-cased (Unicode simple case folding to lower).
-func Norm(s string) string {
-	var b strings.Builder
-	b.Grow(len(s))
-	space := false
-	for _, r := range s {
-		if unicode.IsSpace(r) {
-			space = b.Len() > 0
-			continue
-		}
-		if space {
-			b.WriteByte(' ')
-			space = false
-		}
-		b.WriteRune(unicode.ToLower(r))
-	}
-	return b.String()
 }

@@ -125,23 +125,18 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 	if !ok {
 		return errors.New("ingest: driver connection cannot prepare statements")
 	}
-	prepare := func(q string) (driver.StmtExecContext, func(), error) {
-		st, err := pc.PrepareContext(ctx, q)
+	prepare := func(q string) (*RawStmt, func(), error) {
+		st, err := PrepareRaw(ctx, dc, q)
 		if err != nil {
 			return nil, nil, err
 		}
-		se, ok := st.(driver.StmtExecContext)
-		if !ok {
-			st.Close()
-			return nil, nil, errors.New("ingest: driver statement cannot execute with a context")
-		}
-		return se, func() { st.Close() }, nil
+		return st, func() { st.Close() }, nil
 	}
-	var stFull driver.StmtExecContext
+	var stFull *RawStmt
 	closeFull := func() {}
 	defer func() { closeFull() }()
 	curSrc := -1
-	var stRej driver.StmtExecContext
+	var stRej *RawStmt
 	rejArgs := make([]driver.NamedValue, 8)
 	for i := range rejArgs {
 		rejArgs[i].Ordinal = i + 1
@@ -180,7 +175,7 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 			curSrc = b.src
 		}
 		if b.n == per {
-			if _, err := stFull.ExecContext(ctx, b.args); err != nil {
+			if err := stFull.Exec(ctx, b.args); err != nil {
 				return fmt.Errorf("insert into %s: %w", l.table, err)
 			}
 		} else if b.n > 0 {
@@ -188,7 +183,7 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 			if err != nil {
 				return fmt.Errorf("insert into %s: %w", l.table, err)
 			}
-			_, err = st.ExecContext(ctx, b.args[:b.n*width])
+			err = st.Exec(ctx, b.args[:b.n*width])
 			closeSt()
 			if err != nil {
 				return fmt.Errorf("insert into %s: %w", l.table, err)
@@ -208,7 +203,7 @@ func (l *loader) consume(ctx context.Context, dc any, full <-chan *batch, free c
 			for i, v := range vals {
 				rejArgs[i].Value = v
 			}
-			if _, err := stRej.ExecContext(ctx, rejArgs); err != nil {
+			if err := stRej.Exec(ctx, rejArgs); err != nil {
 				return fmt.Errorf("quarantine: %w", err)
 			}
 		}

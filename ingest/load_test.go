@@ -163,8 +163,8 @@ func TestSQL_InferTypeAndNormEqualGo(t *testing.T) {
 		if tt, ok := InferValue(s, nil); ok {
 			want = tt.String()
 		}
-		if typ.String != want || norm.String != Norm(s) {
-			t.Errorf("%q: SQL %q %q, Go %q %q", s, typ.String, norm.String, want, Norm(s))
+		if typ.String != want || norm.String != NormalizeText(s) {
+			t.Errorf("%q: SQL %q %q, Go %q %q", s, typ.String, norm.String, want, NormalizeText(s))
 		}
 	}
 	var n sql.NullString

@@ -55,3 +55,37 @@ func QueryRaw(ctx context.Context, conn *sql.Conn, query string, args []any, fn 
 		return rows.Close()
 	})
 }
+
+// RawStmt is a statement prepared through the driver's own interface (inside conn.Raw) and
+// executed without database/sql: the bulk writers of ingest, splits and leakage use it.
+type RawStmt struct {
+	st driver.Stmt
+	ex driver.StmtExecContext
+}
+
+// PrepareRaw prepares query on dc, the driver connection conn.Raw hands over.
+func PrepareRaw(ctx context.Context, dc any, query string) (*RawStmt, error) {
+	pc, ok := dc.(driver.ConnPrepareContext)
+	if !ok {
+		return nil, errors.New("driver connection cannot prepare statements")
+	}
+	st, err := pc.PrepareContext(ctx, query)
+	if err != nil {
+		return nil, err
+	}
+	ex, ok := st.(driver.StmtExecContext)
+	if !ok {
+		st.Close()
+		return nil, errors.New("driver statement cannot execute with a context")
+	}
+	return &RawStmt{st, ex}, nil
+}
+
+// Exec executes the statement with args (Ordinal 1..n).
+func (s *RawStmt) Exec(ctx context.Context, args []driver.NamedValue) error {
+	_, err := s.ex.ExecContext(ctx, args)
+	return err
+}
+
+// Close finalizes the statement.
+func (s *RawStmt) Close() error { return s.st.Close() }

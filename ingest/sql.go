@@ -95,7 +95,7 @@ func SQL() (set sqlfn.Set) {
 		},
 		{
 			Name: "ingest_norm", NArgs: 1, Deterministic: true, Args: "text",
-			Doc: "text normalised for duplicate checks: trimmed, inner whitespace collapsed to one space, lower-cased",
+			Doc: "text as the normalised digest (ss_norm_digest) and the audit's exact-duplicate check normalise it: tabs, CR and LF become spaces, runs of spaces collapse to one, the ends are trimmed, ASCII letters are lower-cased (as SQLite's lower() does); leak_norm is the same",
 			Examples: []sqlfn.Example{
 				{SQL: "SELECT ingest_norm('  Cast  IRON ')", Want: "cast iron"},
 			},
@@ -107,7 +107,7 @@ func SQL() (set sqlfn.Set) {
 				if err != nil {
 					return nil, err
 				}
-				return Norm(s), nil
+				return NormalizeText(s), nil
 			},
 		},
 	}}

@@ -23,21 +23,20 @@ var rawQuery = ingest.QueryRaw
 // are not bound a million times).
 type rawInserter struct {
 	ctx    context.Context
-	pc     driver.ConnPrepareContext
+	dc     any
 	head   string
 	prefix string
 	width  int
 	per    int
 	args   []driver.NamedValue
-	full   driver.Stmt
+	full   *ingest.RawStmt
 }
 
 func newRawInserter(ctx context.Context, dc any, head string, width, per int) (*rawInserter, error) {
-	pc, ok := dc.(driver.ConnPrepareContext)
-	if !ok {
+	if _, ok := dc.(driver.ConnPrepareContext); !ok {
 		return nil, errors.New("driver connection cannot prepare statements")
 	}
-	return &rawInserter{ctx: ctx, pc: pc, head: head, width: width, per: per, args: make([]driver.NamedValue, 0, width*per)}, nil
+	return &rawInserter{ctx: ctx, dc: dc, head: head, width: width, per: per, args: make([]driver.NamedValue, 0, width*per)}, nil
 }
 
 func (r *rawInserter) add(vals ...driver.Value) error {
@@ -48,13 +47,13 @@ func (r *rawInserter) add(vals ...driver.Value) error {
 		return nil
 	}
 	if r.full == nil {
-		st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.prefix, r.width, r.per))
+		st, err := ingest.PrepareRaw(r.ctx, r.dc, multiRowSQL(r.head, r.prefix, r.width, r.per))
 		if err != nil {
 			return err
 		}
 		r.full = st
 	}
-	if err := rawExec(r.ctx, r.full, r.args); err != nil {
+	if err := r.full.Exec(r.ctx, r.args); err != nil {
 		return err
 	}
 	r.args = r.args[:0]
@@ -69,22 +68,13 @@ func (r *rawInserter) flush() error {
 	if len(r.args) == 0 {
 		return nil
 	}
-	st, err := r.pc.PrepareContext(r.ctx, multiRowSQL(r.head, r.prefix, r.width, len(r.args)/r.width))
+	st, err := ingest.PrepareRaw(r.ctx, r.dc, multiRowSQL(r.head, r.prefix, r.width, len(r.args)/r.width))
 	if err != nil {
 		return err
 	}
 	defer st.Close()
-	err = rawExec(r.ctx, st, r.args)
+	err = st.Exec(r.ctx, r.args)
 	r.args = r.args[:0]
-	return err
-}
-
-func rawExec(ctx context.Context, st driver.Stmt, args []driver.NamedValue) error {
-	ex, ok := st.(driver.StmtExecContext)
-	if !ok {
-		return errors.New("driver statement cannot execute with a context")
-	}
-	_, err := ex.ExecContext(ctx, args)
 	return err
 }
 

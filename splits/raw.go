@@ -1,9 +1,7 @@
 package splits
 
 import (
-	"context"
 	"database/sql/driver"
-	"errors"
 	"fmt"
 	"strconv"
 
@@ -19,35 +17,8 @@ import (
 // rawQuery is ingest.QueryRaw: one row at a time through the driver, vals reused.
 var rawQuery = ingest.QueryRaw
 
-// rawStmt is a prepared statement of the driver, executed without database/sql.
-type rawStmt struct {
-	st driver.Stmt
-	ex driver.StmtExecContext
-}
-
-func rawPrepare(ctx context.Context, dc any, query string) (*rawStmt, error) {
-	pc, ok := dc.(driver.ConnPrepareContext)
-	if !ok {
-		return nil, errors.New("driver connection cannot prepare statements")
-	}
-	st, err := pc.PrepareContext(ctx, query)
-	if err != nil {
-		return nil, err
-	}
-	ex, ok := st.(driver.StmtExecContext)
-	if !ok {
-		st.Close()
-		return nil, errors.New("driver statement cannot execute with a context")
-	}
-	return &rawStmt{st, ex}, nil
-}
-
-func (s *rawStmt) exec(ctx context.Context, args []driver.NamedValue) error {
-	_, err := s.ex.ExecContext(ctx, args)
-	return err
-}
-
-func (s *rawStmt) Close() error { return s.st.Close() }
+// rawPrepare is ingest.PrepareRaw: a statement of the driver, executed without database/sql.
+var rawPrepare = ingest.PrepareRaw
 
 // asInt64 converts a driver value to int64 as database/sql's Scan into *int64 does.
 func asInt64(v driver.Value, col string) (int64, error) {

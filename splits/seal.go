@@ -412,7 +412,7 @@ func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *ass
 				k++
 			}
 			if k == len(args) {
-				if err := full.exec(ctx, args); err != nil {
+				if err := full.Exec(ctx, args); err != nil {
 					return err
 				}
 				k = 0
@@ -427,7 +427,7 @@ func writeRows(ctx context.Context, conn *sql.Conn, name string, d *data, a *ass
 				return err
 			}
 			defer st.Close()
-			return st.exec(ctx, args[:k])
+			return st.Exec(ctx, args[:k])
 		}
 		return nil
 	})
@@ -564,7 +564,7 @@ func writeRowsPacked(ctx context.Context, conn *sql.Conn, pk *packing, d *data, 
 			args[k].Value = pk.value(d, a, i)
 			k++
 			if k == len(args) {
-				if err := full.exec(ctx, args); err != nil {
+				if err := full.Exec(ctx, args); err != nil {
 					return err
 				}
 				k = 0
@@ -579,7 +579,7 @@ func writeRowsPacked(ctx context.Context, conn *sql.Conn, pk *packing, d *data, 
 				return err
 			}
 			defer st.Close()
-			return st.exec(ctx, args[:k])
+			return st.Exec(ctx, args[:k])
 		}
 		return nil
 	})

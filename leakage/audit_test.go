@@ -228,10 +228,20 @@ func TestRun_TimeOverlap(t *testing.T) {
 		t.Fatal(err)
 	}
 	g := summarize(rep, "time_overlap")
-	want := "[{time_overlap train after holdout start error train:[9]} {time_overlap entity warn train:[1 9] test:[10]}]"
+	// E1's rows are 1 and 9 (train) and 10 (test): one item, first row 1.
+	want := "[{time_overlap train after holdout start error train:[9]} {time_overlap entity warn E1@1{train:2 test:1}}]"
 	if fmt.Sprint(g[:2]) != want {
 		t.Errorf("got %v\nwant %v", g, want)
 	}
+	if m := rep.Findings[1].Message; m != "1 of 1 entity values with rows on both training and holdout sides (100.0%) have training rows later than their first holdout row (histories interleave), 3 rows; e.g. E1 (training up to 2024-01-20, holdout from 2024-01-12)" {
+		t.Errorf("message = %q", m)
+	}
+	db := openRW(t, path)
+	var e, tmax, hmin string
+	if err := db.QueryRow(replayText(t, path, "time_overlap.entity.times")).Scan(&e, &tmax, &hmin); err != nil || e != "E1" || tmax != "2024-01-20" || hmin != "2024-01-12" {
+		t.Errorf("time_overlap.entity.times: %v %s %s %s", err, e, tmax, hmin)
+	}
+	db.Close()
 	// Gap: last training day 20, first holdout day 10: -10 days, shorter than 30d.
 	if len(g) != 3 || g[2].subject != "gap" || rep.Findings[2].Score != -10*86400 {
 		t.Errorf("gap finding: %+v", rep.Findings)
@@ -240,6 +250,15 @@ func TestRun_TimeOverlap(t *testing.T) {
 		if n != 0 {
 			t.Errorf("stored query %s returns %d rows", name, n)
 		}
+	}
+	// Move E1's holdout row after its training rows: the stored item no longer holds.
+	db = openRW(t, path)
+	if _, err := db.Exec(`UPDATE t SET day = '2024-01-25' WHERE ss_row = 10`); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	if n := replay(t, path, "bytime")["time_overlap.entity"]; n != 2 {
+		t.Errorf("replay of time_overlap.entity after the change = %d rows, want 2 (E1's stored sides)", n)
 	}
 }
 

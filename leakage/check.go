@@ -115,7 +115,7 @@ var (
 	TimeOverlap = &Check{
 		Name:     "time_overlap",
 		Title:    "training rows from the holdout period, interleaved entity histories, a gap shorter than specified",
-		Doc:      "With --time (default: the split's time column): training rows later than the start of the holdout period (error); entities (entity columns) whose training rows are later than their first holdout row (warn); and, when the split's spec states a gap, a gap between the last training time and the first holdout time shorter than it (error). A model trained on the future of its holdout looks better than it will be.",
+		Doc:      "With --time (default: the split's time column): training rows later than the start of the holdout period (error); entities (entity columns) whose training rows are later than their first holdout row (warn, one finding per entity column with each such entity as an item in ss_finding_items); and, when the split's spec states a gap, a gap between the last training time and the first holdout time shorter than it (error). A model trained on the future of its holdout looks better than it will be.",
 		Requires: []string{"time"},
 		SQL:      "stock",
 		run:      runTimeOverlap,

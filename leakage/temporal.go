@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"strconv"
+	"strings"
 
 	"splitsmith/splits"
 )
@@ -96,15 +97,20 @@ func runTimeOverlap(a *audit) error {
 	a.addQuery(Query{Name: a.queryName("late_train"), Kind: "check",
 		Description: fmt.Sprintf("training rows whose %s is later than the earliest holdout %s; no rows = the stored finding holds", a.timeCol, a.timeCol),
 		SQL:         a.replaySQL([]string{cte}, `SELECT row_id, side, min(row_id) OVER () FROM k WHERE role = 'train' AND tm > (SELECT min(tm) FROM k WHERE role = 'holdout')`, "train after holdout start")})
-	// (b) entities whose histories interleave across sides.
+	// (b) entities whose histories interleave across sides: one finding per entity column,
+	// each such entity an item (its first row and its timed rows per side).
+	ns := len(a.sides)
 	for _, col := range a.entity {
 		order, groups := a.entityGroups(col)
+		var names, ex []string
+		var first []int64
+		var counts []int32
+		both := 0
 		for gi, key := range order {
-			g := groups[gi]
 			var tmax, hmin timeVal
 			ht, hh := false, false
 			var rows []int32
-			for _, i := range g {
+			for _, i := range groups[gi] {
 				t, ok := a.timeAt(c, int(i))
 				if !ok {
 					continue
@@ -122,18 +128,71 @@ func runTimeOverlap(a *audit) error {
 					}
 				}
 			}
-			if ht && hh && hmin.less(tmax, text) {
-				s := a.groupSides(rows)
-				a.add(Finding{Severity: Warn, Subject: col, Item: itemText(key), HasItem: true, Sides: s, Score: math.NaN(), Query: a.queryName(col),
-					Message:  fmt.Sprintf("%s %s: training rows up to %s but holdout rows from %s (histories interleave)", col, itemText(key), tmax, hmin),
-					Evidence: map[string]any{"train_max": tmax.String(), "holdout_min": hmin.String()}})
+			if !ht || !hh {
+				continue
+			}
+			both++
+			if !hmin.less(tmax, text) {
+				continue
+			}
+			names = append(names, itemText(key))
+			first = append(first, a.rowID[rows[0]]) // group rows ascend, in row order
+			cs := make([]int32, ns)
+			for _, i := range rows {
+				cs[a.side[i]]++
+			}
+			counts = append(counts, cs...)
+			if len(ex) < 3 {
+				ex = append(ex, fmt.Sprintf("%s (training up to %s, holdout from %s)", itemText(key), tmax, hmin))
 			}
 		}
+		items := a.itemsOf(names, first, counts)
+		named := a.colType(col).SQLType != "REAL"
+		itemExpr := "CAST(c.entity AS TEXT)"
+		if !named {
+			itemExpr = "NULL"
+		}
 		ecte := a.baseCTE(tm+" AS tm", "t."+quoteIdent(col)+" AS entity")
+		interleaved := `e AS (SELECT entity, max(CASE WHEN role = 'train' THEN tm END) AS train_max, min(CASE WHEN role = 'holdout' THEN tm END) AS holdout_min FROM k WHERE entity IS NOT NULL AND tm IS NOT NULL GROUP BY entity HAVING train_max > holdout_min)`
 		a.addQuery(Query{Name: a.queryName(col), Kind: "check",
-			Description: fmt.Sprintf("values of %s whose latest training %s is later than their earliest holdout %s; no rows = the stored findings hold", col, a.timeCol, a.timeCol),
-			SQL: a.replaySQL([]string{ecte, `e AS (SELECT entity FROM k WHERE entity IS NOT NULL AND tm IS NOT NULL GROUP BY entity HAVING max(CASE WHEN role = 'train' THEN tm END) > min(CASE WHEN role = 'holdout' THEN tm END))`},
-				`SELECT row_id, side, min(row_id) OVER (PARTITION BY entity) FROM k WHERE tm IS NOT NULL AND role IN ('train', 'holdout') AND entity IN (SELECT entity FROM e)`, col)})
+			Description: fmt.Sprintf("values of %s whose latest training %s is later than their earliest holdout %s, with their first row and timed rows per side; no rows = the stored items hold", col, a.timeCol, a.timeCol),
+			SQL: a.replayItemsSQL([]string{ecte, interleaved,
+				`c AS (SELECT entity, side, count(*) AS n, min(row_id) AS m FROM k WHERE tm IS NOT NULL AND role IN ('train', 'holdout') AND entity IN (SELECT entity FROM e) GROUP BY entity, side)`,
+				`f AS (SELECT entity, min(m) AS first_row FROM c GROUP BY entity)`},
+				"SELECT f.first_row, c.side, "+itemExpr+", c.n FROM c JOIN f ON f.entity = c.entity", col, named)})
+		a.addQuery(Query{Name: a.queryName(col + ".times"), Kind: "report",
+			Description: fmt.Sprintf("each value of %s whose histories interleave: its latest training and earliest holdout %s", col, a.timeCol),
+			SQL:         "WITH " + ecte + ",\n" + interleaved + "\nSELECT entity, train_max, holdout_min FROM e ORDER BY entity"})
+		if len(items) == 0 {
+			continue
+		}
+		f := Finding{Severity: Warn, Subject: col, Items: items, Score: float64(len(items)) / float64(both), Query: a.queryName(col)}
+		rows := 0
+		per := make([]int, ns)
+		for _, it := range items {
+			for _, sd := range it.Sides {
+				per[a.sidePos(sd.Side)] += sd.N
+				rows += sd.N
+			}
+		}
+		for si, n := range per {
+			if n == 0 {
+				continue
+			}
+			if f.SideA == "" {
+				f.SideA, f.NA = a.sides[si].Name, n
+			} else if f.SideB == "" {
+				f.SideB, f.NB = a.sides[si].Name, n
+			}
+		}
+		more := ""
+		if len(items) > len(ex) {
+			more = ", ..."
+		}
+		f.Message = fmt.Sprintf("%d of %d %s values with rows on both training and holdout sides (%.1f%%) have training rows later than their first holdout row (histories interleave), %d rows; e.g. %s%s",
+			len(items), both, col, 100*f.Score, rows, strings.Join(ex, "; "), more)
+		f.Evidence = map[string]any{"interleaved": len(items), "entities_on_both": both, "rows": rows, "examples": ex}
+		a.add(f)
 	}
 	// (c) the gap the spec asked for.
 	if a.gap != "" {

@@ -225,31 +225,17 @@ func runSharedEntity(a *audit) error {
 // sharedFinding is the one shared_entity finding of a subject: the shared items, how many of
 // the subject's total, the rows they hold per side, and the first few by name.
 func (a *audit) sharedFinding(subject, what string, items []Item, total int, ev map[string]any) Finding {
-	per := make([]int, len(a.sides))
-	rows := 0
-	for _, it := range items {
-		for _, s := range it.Sides {
-			per[a.sidePos(s.Side)] += s.N
-			rows += s.N
-		}
-	}
-	counts := map[string]int{}
-	var parts []string
 	f := Finding{Severity: Error, Subject: subject, Items: items, Query: a.queryName(subject), Score: float64(len(items)) / float64(total)}
 	if a.entityComponents() {
 		f.Query = a.queryName("components")
 	}
+	per, rows := a.itemTotals(&f)
+	counts := map[string]int{}
+	var parts []string
 	for si, n := range per {
-		if n == 0 {
-			continue
-		}
-		name := a.sides[si].Name
-		counts[name] = n
-		parts = append(parts, fmt.Sprintf("%d on %s", n, name))
-		if f.SideA == "" {
-			f.SideA, f.NA = name, n
-		} else if f.SideB == "" {
-			f.SideB, f.NB = name, n
+		if n > 0 {
+			counts[a.sides[si].Name] = n
+			parts = append(parts, fmt.Sprintf("%d on %s", n, a.sides[si].Name))
 		}
 	}
 	var ex []string
@@ -333,6 +319,29 @@ func (e *entityCounter) group(id int64, name string) int32 {
 		e.counts = append(e.counts, 0)
 	}
 	return g
+}
+
+// itemTotals sums f's items' rows per side (split order) and in all, and sets f's side_a /
+// side_b columns to the first two sides involved.
+func (a *audit) itemTotals(f *Finding) ([]int, int) {
+	per := make([]int, len(a.sides))
+	rows := 0
+	for _, it := range f.Items {
+		for _, s := range it.Sides {
+			per[a.sidePos(s.Side)] += s.N
+			rows += s.N
+		}
+	}
+	for si, n := range per {
+		switch {
+		case n == 0:
+		case f.SideA == "":
+			f.SideA, f.NA = a.sides[si].Name, n
+		case f.SideB == "":
+			f.SideB, f.NB = a.sides[si].Name, n
+		}
+	}
+	return per, rows
 }
 
 // sharedItems returns the values of col with rows on more than one side, in order of first

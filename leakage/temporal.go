@@ -167,24 +167,7 @@ func runTimeOverlap(a *audit) error {
 			continue
 		}
 		f := Finding{Severity: Warn, Subject: col, Items: items, Score: float64(len(items)) / float64(both), Query: a.queryName(col)}
-		rows := 0
-		per := make([]int, ns)
-		for _, it := range items {
-			for _, sd := range it.Sides {
-				per[a.sidePos(sd.Side)] += sd.N
-				rows += sd.N
-			}
-		}
-		for si, n := range per {
-			if n == 0 {
-				continue
-			}
-			if f.SideA == "" {
-				f.SideA, f.NA = a.sides[si].Name, n
-			} else if f.SideB == "" {
-				f.SideB, f.NB = a.sides[si].Name, n
-			}
-		}
+		_, rows := a.itemTotals(&f)
 		more := ""
 		if len(items) > len(ex) {
 			more = ", ..."

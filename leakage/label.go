@@ -104,17 +104,21 @@ func runLeakingFeature(a *audit) error {
 	for _, t := range a.text {
 		isText[t] = true
 	}
-	a.labelIdx = a.labelIndexes(classes)
-	var scores []leakScore
-	for _, col := range a.feature {
+	if positives != nil {
+		a.labelIdx = a.labelIndexes(classes)
+	}
+	// Columns are scored in parallel (they read the columns only), collected in column order.
+	perCol := make([][]leakScore, len(a.feature))
+	eachParallel(len(a.feature), a.workers, func(k int) {
+		col := a.feature[k]
 		if col == a.timeCol {
-			continue // time is examined by time_overlap and distribution_shift
+			return // time is examined by time_overlap and distribution_shift
 		}
 		if positives == nil {
 			if s, ok := a.spearmanScore(col, rho); ok && !isText[col] {
-				scores = append(scores, s)
+				perCol[k] = []leakScore{s}
 			}
-			continue
+			return
 		}
 		best := map[string]leakScore{}
 		var order []string
@@ -133,8 +137,12 @@ func runLeakingFeature(a *audit) error {
 			}
 		}
 		for _, m := range order {
-			scores = append(scores, best[m])
+			perCol[k] = append(perCol[k], best[m])
 		}
+	})
+	var scores []leakScore
+	for _, s := range perCol {
+		scores = append(scores, s...)
 	}
 	sort.SliceStable(scores, func(i, j int) bool {
 		if si, sj := strength(scores[i]), strength(scores[j]); si != sj {

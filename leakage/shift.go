@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"sync"
+	"sync/atomic"
 )
 
 // CategoricalCounts tallies levels of two samples (NULL as the level "\x00"), returning the
@@ -70,6 +72,41 @@ func finite(x float64) float64 {
 	return x
 }
 
+// colShift is one column's distribution statistics, training against one holdout side.
+type colShift struct {
+	st     shiftStat
+	sev    Severity
+	msg    string
+	isTime bool
+	skip   bool // identifier-like or free text
+}
+
+// eachParallel calls fn(0..n-1) on up to workers goroutines.
+func eachParallel(n, workers int, fn func(i int)) {
+	if workers < 2 || n < 2 {
+		for i := 0; i < n; i++ {
+			fn(i)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range min(workers, n) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1)) - 1
+				if i >= n {
+					return
+				}
+				fn(i)
+			}
+		}()
+	}
+	wg.Wait()
+}
+
 func runDistributionShift(a *audit) error {
 	psiWarn, psiErr, alpha, effect := a.p("psi_warn"), a.p("psi_error"), a.p("alpha"), a.p("effect")
 	maxLevels := int(a.p("max_levels"))
@@ -107,7 +144,11 @@ func runDistributionShift(a *audit) error {
 		if nT == 0 || nH == 0 {
 			continue
 		}
-		for _, col := range cols {
+		// Each column's statistics are computed in parallel (they read the columns only);
+		// findings are added in column order.
+		shifts := make([]colShift, len(cols))
+		eachParallel(len(cols), a.workers, func(k int) {
+			col := cols[k]
 			c := a.data[col]
 			subject := col
 			if col == a.label {
@@ -166,7 +207,8 @@ func runDistributionShift(a *audit) error {
 				}
 				levels, e, o := CategoricalCounts(ref, act, rn, an)
 				if len(levels) > maxLevels || (col != a.label && len(levels) > (nT+nH)/2) || isText[col] {
-					continue // identifier-like or free text: not a distribution of levels
+					shifts[k] = colShift{skip: true} // identifier-like or free text: not a distribution of levels
+					return
 				}
 				st.Kind, st.Levels = "categorical", len(levels)
 				st.PSI = PSI(e, o)
@@ -182,6 +224,15 @@ func runDistributionShift(a *audit) error {
 				}
 			}
 			st.PSI = finite(st.PSI)
+			shifts[k] = colShift{st: st, sev: sev, msg: msg, isTime: isTime}
+		})
+		for k, col := range cols {
+			r := shifts[k]
+			if r.skip {
+				continue
+			}
+			st, sev, msg, isTime := r.st, r.sev, r.msg, r.isTime
+			subject := st.Column
 			stats = append(stats, st)
 			switch {
 			case st.PSI >= psiErr:

@@ -1,7 +1,9 @@
 package leakage
 
 import (
+	"cmp"
 	"math"
+	"slices"
 	"sort"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -219,20 +221,26 @@ func ChiSquare(table [][]float64) ChiSquareResult {
 
 // MidRanks returns the 1-based ranks of x, ties given the mean of the ranks they span.
 func MidRanks(x []float64) []float64 {
-	idx := make([]int, len(x))
-	for i := range idx {
-		idx[i] = i
+	// Ties share one rank, so the order among equal values does not matter: an unstable sort
+	// of (value, index) pairs (several times faster than a stable sort of indexes).
+	type vi struct {
+		v float64
+		i int32
 	}
-	sort.SliceStable(idx, func(a, b int) bool { return x[idx[a]] < x[idx[b]] })
+	idx := make([]vi, len(x))
+	for i, v := range x {
+		idx[i] = vi{v, int32(i)}
+	}
+	slices.SortFunc(idx, func(a, b vi) int { return cmp.Compare(a.v, b.v) })
 	r := make([]float64, len(x))
 	for i := 0; i < len(idx); {
 		j := i + 1
-		for j < len(idx) && x[idx[j]] == x[idx[i]] {
+		for j < len(idx) && idx[j].v == idx[i].v {
 			j++
 		}
 		mid := float64(i+j+1) / 2 // mean of ranks i+1..j
 		for k := i; k < j; k++ {
-			r[idx[k]] = mid
+			r[idx[k].i] = mid
 		}
 		i = j
 	}

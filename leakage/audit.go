@@ -244,6 +244,15 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 		if c == LeakingFeature || c == DistributionShift {
 			keysInSQL = false
 		}
+		if c == NearDuplicateNumeric {
+			a.check = c
+			if tol := a.p("tol"); tol != 0 {
+				if !(tol > 0 && tol < 1) {
+					return nil, inputf("--param near_duplicate_numeric.tol=%g: a relative tolerance must be above 0 and below 1 (0 turns it off)", tol)
+				}
+				keysInSQL = false
+			}
+		}
 	}
 	a.sqlKeys = map[string][]string{}
 	for _, c := range run {
@@ -290,7 +299,11 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 		}
 		if c == NearDuplicateNumeric && !keysInSQL {
 			a.check = c
-			a.roundAll = append(a.roundAll, int(a.p("digits")))
+			if a.p("tol") != 0 {
+				raw(a.feature...) // compared as values
+			} else {
+				a.roundAll = append(a.roundAll, int(a.p("digits")))
+			}
 		}
 	}
 	t0 := time.Now()

@@ -86,12 +86,16 @@ func bigFixture(b *testing.B) string {
 }
 
 func benchAudit(b *testing.B, params map[string]float64, checks ...string) {
-	if !benchSelected("1M") {
-		b.Skip("builds a 1,000,000-row database: run with -bench 1M")
-	}
 	var entity []string
 	if params != nil {
 		entity = []string{} // every column a feature: the ss_digest path
+	}
+	benchAuditOpts(b, Options{Split: "s", Checks: checks, Params: params, Entity: entity})
+}
+
+func benchAuditOpts(b *testing.B, opts Options) {
+	if !benchSelected("1M") {
+		b.Skip("builds a 1,000,000-row database: run with -bench 1M")
 	}
 	path := bigFixture(b)
 	traceHook = func(step string, d time.Duration) { b.Logf("%s: %v", step, d) }
@@ -99,7 +103,7 @@ func benchAudit(b *testing.B, params map[string]float64, checks ...string) {
 	b.ResetTimer()
 	defer cpuMeter(b)()
 	for i := 0; i < b.N; i++ {
-		if _, err := runAudit(b, path, Options{Split: "s", Checks: checks, Params: params, Entity: entity}); err != nil {
+		if _, err := runAudit(b, path, opts); err != nil {
 			b.Fatal(err)
 		}
 	}
@@ -172,4 +176,10 @@ func BenchmarkAudit_AllChecks1M(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
+}
+
+// BenchmarkAudit_NearNumericTol1M: near_duplicate_numeric in its tolerance mode (tol 1%) over
+// 1,000,000 rows.
+func BenchmarkAudit_NearNumericTol1M(b *testing.B) {
+	benchAuditOpts(b, Options{Split: "s", Checks: []string{"near_duplicate_numeric"}, Params: map[string]float64{"near_duplicate_numeric.tol": 0.01}})
 }

@@ -97,12 +97,13 @@ var (
 		run: runNearDuplicateText,
 	}
 	NearDuplicateNumeric = &Check{
-		Name:   "near_duplicate_numeric",
-		Title:  "rows equal across sides once numbers are rounded to a few significant digits",
-		Doc:    "Rows on different sides whose feature values agree when every numeric value (INTEGER and REAL) is rounded to `digits` significant digits and text is normalised as in exact_duplicate, but that are not exact duplicates: the same record measured or exported twice with small numeric noise. Found by grouping on the rounded values (no all-pairs comparison). Needs at least one numeric feature column.",
-		Params: []Param{{"digits", 3, "significant digits numbers are rounded to"}},
-		SQL:    "stock",
-		run:    runNearDuplicateNumeric,
+		Name:  "near_duplicate_numeric",
+		Title: "rows equal across sides once numbers are rounded to a few significant digits",
+		Doc:   "Rows on different sides whose feature values agree when every numeric value (INTEGER and REAL) is rounded to `digits` significant digits and text is normalised as in exact_duplicate, but that are not exact duplicates: the same record measured or exported twice with small numeric noise. Found by grouping on the rounded values (no all-pairs comparison). Rounding splits values that straddle a boundary (1.2349 and 1.2351 at 3 digits); with `tol` > 0 the check instead links rows whose every numeric feature is within that relative distance (text equal, NULLs alike), found through a grid on the log scale (each row looks only at neighbouring cells) and confirmed pair by pair. Needs at least one numeric feature column.",
+		Params: []Param{{"digits", 3, "significant digits numbers are rounded to"},
+			{"tol", 0, "0: round to digits; in (0, 1): instead, rows whose every numeric feature agrees within this relative tolerance, |x-y| <= tol*max(|x|,|y|), text equal and NULLs alike, linked into groups (no rounding boundary to fall on)"}},
+		SQL: "stock",
+		run: runNearDuplicateNumeric,
 	}
 	SharedEntity = &Check{
 		Name:     "shared_entity",

@@ -122,6 +122,9 @@ func runExactDuplicate(a *audit) error {
 }
 
 func runNearDuplicateNumeric(a *audit) error {
+	if tol := a.p("tol"); tol != 0 {
+		return runNearNumericTol(a, tol)
+	}
 	exact := a.featureKey()
 	digits := int(a.p("digits"))
 	near := keySpec{cols: a.feature, normalize: true, realDig: digits, intDig: digits}

@@ -178,9 +178,16 @@ func ParseMap(s string) (map[string]string, error) {
 	return m, nil
 }
 
-// ParseSpec reads a spec file (YAML; JSON is YAML too). Unknown fields are refused. file
-// names the file in errors.
+// ParseSpec reads a spec file: TOML when file ends in .toml, else YAML (JSON is YAML too).
+// Unknown fields are refused. file names the file in errors.
 func ParseSpec(data []byte, file string) (*Spec, error) {
+	if strings.HasSuffix(strings.ToLower(file), ".toml") {
+		return parseSpecTOML(data, file)
+	}
+	return parseSpecYAML(data, file)
+}
+
+func parseSpecYAML(data []byte, file string) (*Spec, error) {
 	dec := yaml.NewDecoder(bytes.NewReader(data))
 	dec.KnownFields(true)
 	s := Spec{Seed: 1} // the flag's default, so a file without seed means what the flags mean

@@ -71,7 +71,7 @@ Examples:
    splitsmith split --db pipes.db --spec split.yaml`,
 		Flags: []cli.Flag{
 			dbFlag(),
-			&cli.StringFlag{Name: "spec", Usage: "read the split from a spec `FILE` (YAML or JSON, version: 1)"},
+			&cli.StringFlag{Name: "spec", Usage: "read the split from a spec `FILE` (YAML or JSON; TOML when it ends in .toml; version 1)"},
 			&cli.StringFlag{Name: "table", Usage: "ingested table `NAME`"},
 			&cli.StringFlag{Name: "name", Usage: "split `NAME` (letters, digits, _)"},
 			&cli.StringFlag{Name: "sides", Usage: "`SIDE=FRACTION,...` summing to 1 (default train=0.8,holdout=0.2; train=1 with --folds)"},

@@ -104,7 +104,7 @@ const zeroSci = "0.00000000e+00"
 // false when Go cannot be sure of the text: a REAL near a rounding boundary (see
 // RoundSignificant), or a value whose storage class does not match the column (a BLOB, text
 // in a REAL column, a REAL in an INTEGER column). The caller then has SQLite evaluate
-// NormExprSQL(sqlType, "?") with v (for a REAL: printf('%.8e', ?)) and uses that text.
+// NormExprSQL(sqlType, "?1") with v (for a REAL: printf('%.8e', ?1)) and uses that text.
 func NormValue(sqlType string, v driver.Value) (norm string, null, ok bool) {
 	if v == nil {
 		return "", true, true

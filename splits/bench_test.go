@@ -10,6 +10,7 @@ import (
 	"syscall"
 	"testing"
 
+	"splitsmith/ingest"
 	"splitsmith/internal/store"
 )
 
@@ -44,6 +45,13 @@ WITH RECURSIVE c(i) AS (SELECT 1 UNION ALL SELECT i + 1 FROM c WHERE i < 1000000
 INSERT INTO t(ss_row, ss_source, ss_line, ss_digest, id, grp, day, x) SELECT i, 'bench.csv', i + 1, 0, i, 'G' || (abs(random()) % 50000),
   date('2018-01-01', '+' || (abs(random()) % 2000) || ' days'), (abs(random()) % 100000) / 1000.0 FROM c;
 UPDATE t SET ss_digest = ingest_digest(id, grp, day, x);`)
+			if err != nil {
+				return err
+			}
+			// The normalised digest, as ingest stores it (verify checks it too).
+			_, err = tx.Conn.ExecContext(ctx, `ALTER TABLE t ADD COLUMN ss_norm_digest INTEGER;
+UPDATE t SET ss_norm_digest = ingest_norm_digest(`+ingest.NormExprSQL("INTEGER", "id")+`, `+ingest.NormExprSQL("TEXT", "grp")+`, `+
+				ingest.NormExprSQL("TEXT", "day")+`, `+ingest.NormExprSQL("REAL", "x")+`);`)
 			return err
 		})
 	})

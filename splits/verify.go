@@ -410,8 +410,14 @@ func readStoredPlain(ctx context.Context, conn *sql.Conn, name string) ([]int64,
 // changes are put back in row order, so the result does not depend on the number of workers.
 // The row's user columns are the last len(t.Columns) values of the query.
 type digestTap struct {
-	cols     []string // quoted user columns, appended to the query
+	cols     []string // ss_norm_digest (when the table has it) and the quoted user columns, appended to the query
 	width    int
+	// norm: the table has ss_norm_digest, which is checked too (the audit reads it in place of
+	// the feature values): types are the user columns' SQL types, for ingest.NormValue.
+	norm  bool
+	types []string
+	ctx   context.Context
+	conn  *sql.Conn
 	progress progressFn
 	total, n int64
 	all      []rowDigest // every row's stored digest, in ss_row order
@@ -431,13 +437,30 @@ type digestChunk struct {
 	vals   []driver.Value
 	out    []Change
 	err    error
+	// The normalised digest: stored, recomputed (fixes still to add), which rows already
+	// failed the content digest, and the values only SQLite can normalise for sure.
+	normStored []int64
+	normSum    []uint64
+	bad        []bool
+	fixes      []normFix
+}
+
+// normFix is a value whose normalised text SQLite decides (a REAL near a rounding boundary).
+type normFix struct {
+	row, pos int
+	typ      string
+	v        driver.Value
 }
 
 func newDigestTap(ctx context.Context, conn *sql.Conn, t *Table, progress progressFn) (*digestTap, error) {
-	d := &digestTap{width: len(t.Columns), progress: progress, cur: &digestChunk{},
+	d := &digestTap{width: len(t.Columns), progress: progress, cur: &digestChunk{}, ctx: ctx, conn: conn,
 		work: make(chan *digestChunk, 8), results: make(chan *digestChunk, 8), collected: make(chan struct{})}
+	if d.norm = slices.Contains(t.system, "ss_norm_digest"); d.norm {
+		d.cols = append(d.cols, "ss_norm_digest")
+	}
 	for _, c := range t.Columns {
 		d.cols = append(d.cols, quoteIdent(c.Name))
+		d.types = append(d.types, sqlTypeOf(c.Logical))
 	}
 	if progress != nil {
 		if err := conn.QueryRowContext(ctx, `SELECT count(*) FROM `+quoteIdent(t.Name)).Scan(&d.total); err != nil {
@@ -460,11 +483,25 @@ func newDigestTap(ctx context.Context, conn *sql.Conn, t *Table, progress progre
 							c.err = err
 						}
 					}
-					if got := dg.Sum(); got != c.stored[r] {
+					got := dg.Sum()
+					if got != c.stored[r] {
 						c.out = append(c.out, Change{Kind: "changed", RowID: id, Now: strconv.FormatInt(got, 10), Detail: fmt.Sprintf("values no longer match the row's content digest (ss_digest %d, values digest to %d)", c.stored[r], got)})
 					}
+					if d.norm {
+						c.bad = append(c.bad, got != c.stored[r])
+						var sum uint64
+						for j, v := range c.vals[r*w : (r+1)*w] {
+							norm, null, ok := ingest.NormValue(d.types[j], v)
+							if !ok {
+								c.fixes = append(c.fixes, normFix{r, j + 1, d.types[j], v})
+								continue
+							}
+							sum += ingest.NormTerm(j+1, norm, null)
+						}
+						c.normSum = append(c.normSum, sum)
+					}
 				}
-				c.vals, c.ids, c.stored = nil, nil, nil
+				c.vals, c.stored = nil, nil
 				d.results <- c
 			}
 		}()
@@ -489,6 +526,11 @@ func (d *digestTap) row(id int64, digest driver.Value, vals []driver.Value) {
 	c := d.cur
 	c.ids = append(c.ids, id)
 	c.stored = append(c.stored, stored)
+	if d.norm {
+		nd, _ := vals[0].(int64)
+		c.normStored = append(c.normStored, nd)
+		vals = vals[1:]
+	}
 	for _, v := range vals {
 		if b, ok := v.([]byte); ok {
 			v = append([]byte(nil), b...)
@@ -527,9 +569,65 @@ func (d *digestTap) finish() ([]Change, error) {
 		if c.err != nil {
 			return nil, c.err
 		}
-		out = append(out, c.out...)
+		if !d.norm {
+			out = append(out, c.out...)
+			continue
+		}
+		if err := d.applyFixes(c); err != nil {
+			return nil, err
+		}
+		// In row order: a content-digest change, else a normalised-digest mismatch.
+		k := 0
+		for r, id := range c.ids {
+			if c.bad[r] {
+				out = append(out, c.out[k])
+				k++
+				continue
+			}
+			if got := int64(c.normSum[r]); got != c.normStored[r] {
+				out = append(out, Change{Kind: "changed", RowID: id, Now: strconv.FormatInt(got, 10), Detail: fmt.Sprintf("the row's normalised digest no longer matches its values (ss_norm_digest %d, values give %d)", c.normStored[r], got)})
+			}
+		}
 	}
 	return out, nil
+}
+
+// applyFixes adds the terms of the values only SQLite normalises for sure (after the read,
+// when the connection is free): printf('%.8e', x) for a REAL, NormExprSQL in general.
+func (d *digestTap) applyFixes(c *digestChunk) error {
+	stmts := map[string]*sql.Stmt{}
+	defer func() {
+		for _, st := range stmts {
+			st.Close()
+		}
+	}()
+	for _, f := range c.fixes {
+		st, ok := stmts[f.typ]
+		if !ok {
+			var err error
+			if st, err = d.conn.PrepareContext(d.ctx, "SELECT "+ingest.NormExprSQL(f.typ, "?1")); err != nil {
+				return err
+			}
+			stmts[f.typ] = st
+		}
+		var text sql.NullString
+		if err := st.QueryRowContext(d.ctx, f.v).Scan(&text); err != nil {
+			return fmt.Errorf("normalise %v: %w", f.v, err)
+		}
+		c.normSum[f.row] += ingest.NormTerm(f.pos, text.String, !text.Valid)
+	}
+	return nil
+}
+
+// sqlTypeOf is the storage type ingest gives a logical type (its ss_columns.sql_type).
+func sqlTypeOf(logical string) string {
+	switch logical {
+	case "INTEGER", "BOOLEAN":
+		return "INTEGER"
+	case "REAL":
+		return "REAL"
+	}
+	return "TEXT"
 }
 
 // stop ends the workers when finish was not reached (an error on the way).
@@ -567,6 +665,15 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 	qs = append(qs, AuditQuery{Name: "row_digests", Kind: "check", NeedsTool: true,
 		Description: "rows whose values no longer match their content digest (changed since loading)",
 		SQL:         fmt.Sprintf(`SELECT ss_row, ss_source, ss_line FROM %s WHERE ss_digest <> ingest_digest(%s) ORDER BY ss_row`, T, strings.Join(cols, ", "))})
+	if slices.Contains(t.system, "ss_norm_digest") {
+		var norms []string
+		for _, c := range t.Columns {
+			norms = append(norms, ingest.NormExprSQL(sqlTypeOf(c.Logical), quoteIdent(c.Name)))
+		}
+		qs = append(qs, AuditQuery{Name: "row_norm_digests", Kind: "check", NeedsTool: true,
+			Description: "rows whose values no longer match their normalised digest (ss_norm_digest, which the audit reads in place of the feature values)",
+			SQL:         fmt.Sprintf(`SELECT ss_row, ss_source, ss_line FROM %s WHERE ss_norm_digest IS NOT ingest_norm_digest(%s) ORDER BY ss_row`, T, strings.Join(norms, ", "))})
+	}
 	// The assignment itself, where plain SQL (plus split_side) recomputes it.
 	sides := quoteString(spec.Sides.String())
 	seed := fmt.Sprint(int64(spec.Seed))

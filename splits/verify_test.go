@@ -2,8 +2,12 @@ package splits
 
 import (
 	"context"
+	"fmt"
 	"strconv"
+	"strings"
 	"testing"
+
+	"splitsmith/ingest"
 
 	"splitsmith/internal/store"
 )
@@ -88,3 +92,48 @@ func TestVerify_DetectsEveryChange(t *testing.T) {
 }
 
 func itoa(i int64) string { return strconv.FormatInt(i, 10) }
+
+// verify checks ss_norm_digest too (the audit reads it in place of the feature values). The
+// digest is filled by SQLite itself with ingest's recomputation SQL, so SQLite's printf is
+// the reference; the values include REALs at an exact half at 9 significant digits
+// (123456789.5, 2.5e-7·5), which Go leaves to SQLite, so verify's SQLite fix-ups run.
+func TestVerify_NormDigest(t *testing.T) {
+	path := newDB(t)
+	cols := []col{{"name", "TEXT"}, {"x", "REAL"}, {"n", "INTEGER"}}
+	var rows [][]any
+	for i := 0; i < 40; i++ {
+		var x any = float64(i) + 0.25
+		switch i % 4 {
+		case 1:
+			x = 123456789.5 + float64(i)
+		case 2:
+			x = nil
+		}
+		rows = append(rows, []any{fmt.Sprintf("  Seg %02d ", i%7), x, int64(i * 3)})
+	}
+	makeTable(t, path, "t", cols, rows, nil)
+	var exprs []string
+	for _, c := range cols {
+		st := map[string]string{"INTEGER": "INTEGER", "REAL": "REAL"}[c.typ]
+		if st == "" {
+			st = "TEXT"
+		}
+		exprs = append(exprs, ingest.NormExprSQL(st, quoteIdent(c.name)))
+	}
+	exec(t, path, `ALTER TABLE t ADD COLUMN ss_norm_digest INTEGER`)
+	exec(t, path, `UPDATE t SET ss_norm_digest = ingest_norm_digest(`+strings.Join(exprs, ", ")+`)`)
+	mustSplit(t, path, Spec{Name: "v", Table: "t", Seed: 4})
+	if rep := verify(t, path, "v"); !rep.Intact {
+		t.Fatalf("fresh split does not verify: %+v", rep.Changes)
+	}
+	checkAuditQueries(t, path, "v") // row_norm_digests among them
+	exec(t, path, `UPDATE t SET ss_norm_digest = ss_norm_digest + 1 WHERE ss_row = 6`)
+	q := query(t, path, `SELECT sql FROM ss_audit_queries WHERE subject = 'split:v' AND name = 'row_norm_digests'`)
+	if len(q) != 1 || fmt.Sprint(query(t, path, q[0])) != "[6|data.csv|7]" {
+		t.Errorf("row_norm_digests after the change: %v", query(t, path, q[0]))
+	}
+	rep := verify(t, path, "v")
+	if rep.Intact || len(rep.Changes) != 1 || rep.Changes[0].RowID != 6 || !strings.Contains(rep.Changes[0].Detail, "normalised digest no longer matches") {
+		t.Errorf("altered ss_norm_digest: %+v", rep.Changes)
+	}
+}

@@ -410,14 +410,14 @@ func readStoredPlain(ctx context.Context, conn *sql.Conn, name string) ([]int64,
 // changes are put back in row order, so the result does not depend on the number of workers.
 // The row's user columns are the last len(t.Columns) values of the query.
 type digestTap struct {
-	cols     []string // ss_norm_digest (when the table has it) and the quoted user columns, appended to the query
-	width    int
+	cols  []string // ss_norm_digest (when the table has it) and the quoted user columns, appended to the query
+	width int
 	// norm: the table has ss_norm_digest, which is checked too (the audit reads it in place of
 	// the feature values): types are the user columns' SQL types, for ingest.NormValue.
-	norm  bool
-	types []string
-	ctx   context.Context
-	conn  *sql.Conn
+	norm     bool
+	types    []string
+	ctx      context.Context
+	conn     *sql.Conn
 	progress progressFn
 	total, n int64
 	all      []rowDigest // every row's stored digest, in ss_row order

@@ -285,14 +285,14 @@ func runNearNumericTol(a *audit, tol float64) error {
 	}
 	a.addQuery(Query{Name: a.queryName("across"), Kind: "check",
 		Description: fmt.Sprintf("rows on different sides with equal normalised text, NULLs in the same columns and every numeric feature within %g (relative) of each other, not exact duplicates, linked into groups; no rows = the stored findings hold", tol),
-		SQL:         a.tolReplaySQL(exact, texts, numNames, tol)})
+		SQL:         a.tolReplaySQL(exact, numNames, tol)})
 	return nil
 }
 
 // tolReplaySQL is the stock-SQL recomputation of the tolerance groups: an all-pairs join
 // within equal text and NULL pattern (fine for the sizes one replays by hand), exact-key
 // classes linked by matching cross-side pairs, and components by a recursive CTE.
-func (a *audit) tolReplaySQL(exact keySpec, texts []*column, numNames []string, tol float64) string {
+func (a *audit) tolReplaySQL(exact keySpec, numNames []string, tol float64) string {
 	var tparts []string
 	for _, f := range a.feature {
 		x := "t." + quoteIdent(f)

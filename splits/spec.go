@@ -409,9 +409,6 @@ func (s *Spec) Resolve() error {
 		default:
 			return fieldErr("span", "%q is not one of drop, earlier, entity", s.Span)
 		}
-		if s.Folds > 0 && len(s.Group) > 0 {
-			return fieldErr("folds", "rolling-origin folds with --group are not supported; use a grouped time holdout, or folds without --time")
-		}
 		if s.TestSize < 0 {
 			return fieldErr("test_size", "must be positive, got %d", s.TestSize)
 		}

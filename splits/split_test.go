@@ -8,6 +8,7 @@ import (
 	"reflect"
 	"strings"
 	"testing"
+	"time"
 )
 
 // genRows makes n rows of (id INTEGER, grp TEXT, cls TEXT, day DATE, x REAL) from a seed:
@@ -477,4 +478,107 @@ func TestSplit_RollingPurgeNumericTime(t *testing.T) {
 		t.Errorf("fold 1: %+v", res.Folds[0])
 	}
 	checkAuditQueries(t, path, "rp")
+}
+
+// Rolling-origin folds with --group: the TimeSeriesSplit folds above (12 rows, 3 folds, test
+// size 2, gap 2 rows), where entity A has rows 1 and 6 (6 is tested in fold 1), B rows 3 and
+// 10 (10 tested in fold 3) and C rows 8 and 9 (tested in fold 2); worked out by hand from the
+// rule "an entity trains only in folds after the last one that tests it": row 1 trains from
+// fold 2, row 3 never, everything else as TimeSeriesSplit has it.
+func TestSplit_RollingOriginGrouped(t *testing.T) {
+	wantTrain := [][]int{{0, 2}, {0, 1, 2, 4, 5}, {0, 1, 2, 4, 5, 6, 7}}
+	wantTest := [][]int{{6, 7}, {8, 9}, {10, 11}}
+	ent := map[int]string{1: "A", 6: "A", 3: "B", 10: "B", 8: "C", 9: "C"}
+	path := newDB(t)
+	var rows [][]any
+	for _, i := range []int{5, 0, 11, 3, 8, 1, 10, 2, 7, 4, 9, 6} {
+		g, ok := ent[i]
+		if !ok {
+			g = fmt.Sprintf("U%d", i)
+		}
+		rows = append(rows, []any{int64(i), fmt.Sprintf("2024-01-%02d", i+1), g})
+	}
+	makeTable(t, path, "ts", []col{{"i", "INTEGER"}, {"d", "DATE"}, {"g", "TEXT"}}, rows, nil)
+	res := mustSplit(t, path, Spec{Name: "roll", Table: "ts", Time: "d", Folds: 3, TestSize: 2, GapRows: 2, Group: []string{"g"}, Sides: Sides{{Name: "train", Fraction: 1}}})
+	got := readRows(t, path, "roll")
+	for k := 1; k <= 3; k++ {
+		var train, test []int
+		for id, a := range got {
+			i := int(rows[id-1][0].(int64))
+			if a.fold == int64(k) {
+				test = append(test, i)
+			}
+			if a.tf != 0 && a.tf <= int64(k) {
+				train = append(train, i)
+			}
+		}
+		sortInts(train)
+		sortInts(test)
+		if !reflect.DeepEqual(train, wantTrain[k-1]) || !reflect.DeepEqual(test, wantTest[k-1]) {
+			t.Errorf("fold %d: train %v test %v, want %v %v", k, train, test, wantTrain[k-1], wantTest[k-1])
+		}
+		// Groups by hand: fold 3 trains A twice (rows 1, 6); fold 2 tests C twice.
+		if f := res.Folds[k-1]; f.TrainRows != len(wantTrain[k-1]) || f.TrainGroups == nil || *f.TrainGroups != []int{2, 5, 6}[k-1] || f.TestGroups == nil || *f.TestGroups != []int{2, 1, 2}[k-1] {
+			t.Errorf("fold %d summary %+v", k, f)
+		}
+	}
+	checkAuditQueries(t, path, "roll") // group_rolling_fold_1 among them
+	if rep := verify(t, path, "roll"); !rep.Intact {
+		t.Errorf("verify: %+v", rep.Changes)
+	}
+	// Moving row 3 (entity B) into training by hand breaks the stored check.
+	exec(t, path, `UPDATE ss_split_rows SET train_from = 1 WHERE split_name = 'roll' AND row_id = (SELECT ss_row FROM ts WHERE i = 3)`)
+	q := query(t, path, `SELECT sql FROM ss_audit_queries WHERE subject = 'split:roll' AND name = 'group_rolling_fold_1'`)
+	if len(q) != 1 || len(query(t, path, q[0])) == 0 {
+		t.Errorf("group_rolling_fold_1 does not see entity B trained in its test fold")
+	}
+}
+
+// Invariant on generated data (2,000 rows over 1,000 days; most entities live about 20 days,
+// one in ten spans the whole period; a grouped time holdout with 4 rolling folds inside its
+// train side): in no fold does an entity both train and get tested. When entities span the
+// whole period a fold is left without training rows, and the split says so.
+func TestSplit_RollingGroupedInvariant(t *testing.T) {
+	path := newDB(t)
+	r := rand.New(rand.NewPCG(5, 6))
+	var rows [][]any
+	for i := 0; i < 2000; i++ {
+		day := r.IntN(1000)
+		g := fmt.Sprintf("G%03d", day/20)
+		if r.IntN(10) == 0 {
+			g = fmt.Sprintf("L%d", r.IntN(5))
+		}
+		rows = append(rows, []any{int64(i), g, "a", time.Date(2020, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, day).Format("2006-01-02"), r.Float64()})
+	}
+	makeTable(t, path, "t", genCols, rows, nil)
+	mustSplit(t, path, Spec{Name: "rg", Table: "t", Seed: 3, Time: "day", Group: []string{"grp"}, Span: "earlier", Folds: 4, Gap: "3d"})
+	got := readRows(t, path, "rg")
+	for k := int64(1); k <= 4; k++ {
+		train, test := map[string]bool{}, map[string]bool{}
+		for id, a := range got {
+			g := rows[id-1][1].(string)
+			if a.fold == k {
+				test[g] = true
+			}
+			if a.tf != 0 && a.tf <= k {
+				train[g] = true
+			}
+		}
+		if len(test) == 0 || len(train) == 0 {
+			t.Fatalf("fold %d: %d training and %d tested groups", k, len(train), len(test))
+		}
+		for g := range test {
+			if train[g] {
+				t.Errorf("fold %d: group %s trains and is tested", k, g)
+			}
+		}
+	}
+	checkAuditQueries(t, path, "rg")
+	// Entities over the whole period: a fold would have nothing to train on.
+	path2 := newDB(t)
+	makeTable(t, path2, "t", genCols, genRows(5, 2000, 120, 1), nil)
+	_, err := split(t, path2, Spec{Name: "rg", Table: "t", Seed: 3, Time: "day", Group: []string{"grp"}, Span: "earlier", Folds: 4, Gap: "3d"}, false)
+	if err == nil || !strings.Contains(err.Error(), "rolling fold 1 has no training rows") {
+		t.Errorf("entities over the whole period: %v", err)
+	}
 }

@@ -278,7 +278,8 @@ func applySpan(d *data, spec *Spec, fr []float64, a *assignment, timeSide []int1
 // gap before the block: position < start_k - gap_rows, time < time(start_k) - gap, and
 // (with --label-end) label_end < time(start_k), so labels never reach into the test block.
 // A row's train_from is the first fold whose training part holds it (the conditions only
-// loosen as k grows, so it trains in every later fold as well).
+// loosen as k grows, so it trains in every later fold as well). With --group, an entity's
+// rows train only after the last fold that tests one of its rows.
 func assignRolling(d *data, spec *Spec, a *assignment) error {
 	gap, err := spec.gapValue(d.numeric)
 	if err != nil {
@@ -323,15 +324,50 @@ func assignRolling(d *data, spec *Spec, a *assignment) error {
 			}
 		}
 	}
+	grouped := len(spec.Group) > 0 && d.entity != nil
+	if grouped {
+		// No entity both trains and is tested in one fold: an entity's rows train only in
+		// the folds after the last fold that tests any of its rows (the training part of
+		// every fold only grows, so that is again one train_from per row).
+		last := map[int32]int32{}
+		for _, i := range order {
+			if f := a.fold[i]; f > 0 && f > last[d.entity[i]] {
+				last[d.entity[i]] = f
+			}
+		}
+		purged := 0
+		for _, i := range order {
+			if l, ok := last[d.entity[i]]; ok && a.trainFrom[i] != 0 && a.trainFrom[i] <= l {
+				purged++
+				if a.trainFrom[i] = l + 1; l+1 > int32(K) {
+					a.trainFrom[i] = 0
+				}
+			}
+		}
+		a.notes["rolling_group_purged_rows"] = purged
+	}
 	for k := 1; k <= K; k++ {
-		st := foldStat{fold: k, testRows: ts}
-		for p := 0; p < start[k]; p++ {
+		st := foldStat{fold: k, testRows: ts, hasGroups: grouped}
+		trainG, testG := map[int32]bool{}, map[int32]bool{}
+		for p := 0; p < start[k]+ts; p++ {
 			i := order[p]
-			if a.trainFrom[i] != 0 && a.trainFrom[i] <= int32(k) {
+			switch {
+			case p >= start[k]:
+				if grouped {
+					testG[d.entity[i]] = true
+				}
+			case a.trainFrom[i] != 0 && a.trainFrom[i] <= int32(k):
 				st.trainRows++
-			} else {
+				if grouped {
+					trainG[d.entity[i]] = true
+				}
+			default:
 				st.excluded++
 			}
+		}
+		st.trainGroups, st.testGroups = len(trainG), len(testG)
+		if grouped && st.trainRows == 0 {
+			return fieldErr("folds", "rolling fold %d has no training rows once each entity trains only after the last fold that tests it (its entities reach into the later test blocks); use fewer folds, or a grouped time holdout", k)
 		}
 		a.folds = append(a.folds, st)
 	}

@@ -706,6 +706,11 @@ func auditQueries(spec *Spec, t *Table, res *Result) []AuditQuery {
 		qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_side_%d", i+1), Kind: "check",
 			Description: fmt.Sprintf("values of group column %s found on more than one side (every entity must be on one side)", g),
 			SQL:         fmt.Sprintf(`SELECT t.%[3]s AS value, group_concat(DISTINCT r.side) AS sides FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id WHERE r.split_name = %[2]s AND r.side <> '' AND t.%[3]s IS NOT NULL GROUP BY t.%[3]s HAVING count(DISTINCT r.side) > 1 ORDER BY 1`, T, n, quoteIdent(g))})
+		if spec.FoldScheme() == "rolling" {
+			qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_rolling_fold_%d", i+1), Kind: "check",
+				Description: fmt.Sprintf("rows trained on in a rolling fold that tests a row with the same %s (an entity must not train and be tested in one fold)", g),
+				SQL:         fmt.Sprintf(`SELECT r.row_id, q.fold, t.%[3]s AS value FROM ss_split_rows AS r JOIN %[1]s AS t ON t.ss_row = r.row_id JOIN ss_split_rows AS q ON q.split_name = r.split_name AND q.fold IS NOT NULL JOIN %[1]s AS u ON u.ss_row = q.row_id AND u.%[3]s = t.%[3]s WHERE r.split_name = %[2]s AND r.train_from IS NOT NULL AND r.train_from <= q.fold ORDER BY 1, 2`, T, n, quoteIdent(g))})
+		}
 		if spec.FoldScheme() == "kfold" {
 			qs = append(qs, AuditQuery{Name: fmt.Sprintf("group_one_fold_%d", i+1), Kind: "check",
 				Description: fmt.Sprintf("values of group column %s found in more than one fold", g),

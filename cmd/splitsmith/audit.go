@@ -31,8 +31,9 @@ func newAuditCommand(s stdio) *cli.Command {
 		Usage: "report every leak between the sides of a split",
 		Description: `Runs the leakage checks (splitsmith audit --list-checks shows each, with its
 thresholds and sources) on split NAME and stores the findings in ss_findings (one ss_audits
-row per audit), the rows each involves in ss_finding_rows (for shared_entity, each shared
-entity and its rows per side in ss_finding_items), and SQL that recomputes them in
+row per audit), the rows each involves in ss_finding_rows (for shared entities and
+interleaved entity histories, each entity and its rows per side in ss_finding_items), and
+SQL that recomputes them in
 ss_audit_queries (subject 'audit:NAME'); a stored 'check' query returns no rows while its
 findings still hold. Findings and their order are deterministic.
 

@@ -183,3 +183,9 @@ func BenchmarkAudit_AllChecks1M(b *testing.B) {
 func BenchmarkAudit_NearNumericTol1M(b *testing.B) {
 	benchAuditOpts(b, Options{Split: "s", Checks: []string{"near_duplicate_numeric"}, Params: map[string]float64{"near_duplicate_numeric.tol": 0.01}})
 }
+
+// BenchmarkAudit_NearNumericTolNoText1M: the same with the text columns ignored, so only
+// the grid separates the rows.
+func BenchmarkAudit_NearNumericTolNoText1M(b *testing.B) {
+	benchAuditOpts(b, Options{Split: "s", Checks: []string{"near_duplicate_numeric"}, Ignore: []string{"material", "code"}, Params: map[string]float64{"near_duplicate_numeric.tol": 0.01}})
+}

@@ -163,19 +163,7 @@ func BenchmarkBaseline_GroupDigest1M(b *testing.B) {
 // BenchmarkAudit_AllChecks1M: every check the fixture has inputs for (no text or time
 // column; i1, an integer 0..99, as the label) over 1,000,000 rows, with each step's time.
 func BenchmarkAudit_AllChecks1M(b *testing.B) {
-	if !benchSelected("1M") {
-		b.Skip("builds a 1,000,000-row database: run with -bench 1M")
-	}
-	path := bigFixture(b)
-	traceHook = func(step string, d time.Duration) { b.Logf("%s: %v", step, d) }
-	defer func() { traceHook = nil }()
-	b.ResetTimer()
-	defer cpuMeter(b)()
-	for i := 0; i < b.N; i++ {
-		if _, err := runAudit(b, path, Options{Split: "s", Label: "i1"}); err != nil {
-			b.Fatal(err)
-		}
-	}
+	benchAuditOpts(b, Options{Split: "s", Label: "i1"})
 }
 
 // BenchmarkAudit_NearNumericTol1M: near_duplicate_numeric in its tolerance mode (tol 1%) over

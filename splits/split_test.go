@@ -233,6 +233,23 @@ func TestSplit_GroupKFoldExample(t *testing.T) {
 	checkAuditQueries(t, path, "k")
 }
 
+// foldMembers lists the first value (an integer index) of the rows that rolling fold k
+// trains on and tests, sorted.
+func foldMembers(got map[int64]rowAssign, rows [][]any, k int) (train, test []int) {
+	for id, a := range got {
+		i := int(rows[id-1][0].(int64))
+		if a.fold == int64(k) {
+			test = append(test, i)
+		}
+		if a.tf != 0 && a.tf <= int64(k) {
+			train = append(train, i)
+		}
+	}
+	sortInts(train)
+	sortInts(test)
+	return train, test
+}
+
 // scikit-learn's TimeSeriesSplit example with a gap, recomputed with
 //
 //	/usr/bin/python3 -c "import numpy as np; from sklearn.model_selection import TimeSeriesSplit;
@@ -264,18 +281,7 @@ func TestSplit_RollingOriginMatchesTimeSeriesSplit(t *testing.T) {
 			res := mustSplit(t, path, sp)
 			got := readRows(t, path, "roll")
 			for k := 1; k <= 3; k++ {
-				var train, test []int
-				for id, a := range got {
-					i := int(rows[id-1][0].(int64))
-					if a.fold == int64(k) {
-						test = append(test, i)
-					}
-					if a.tf != 0 && a.tf <= int64(k) {
-						train = append(train, i)
-					}
-				}
-				sortInts(train)
-				sortInts(test)
+				train, test := foldMembers(got, rows, k)
 				if !reflect.DeepEqual(train, wantTrain[k-1]) || !reflect.DeepEqual(test, wantTest[k-1]) {
 					t.Errorf("fold %d: train %v test %v, want %v %v (TimeSeriesSplit)", k, train, test, wantTrain[k-1], wantTest[k-1])
 				}
@@ -502,18 +508,7 @@ func TestSplit_RollingOriginGrouped(t *testing.T) {
 	res := mustSplit(t, path, Spec{Name: "roll", Table: "ts", Time: "d", Folds: 3, TestSize: 2, GapRows: 2, Group: []string{"g"}, Sides: Sides{{Name: "train", Fraction: 1}}})
 	got := readRows(t, path, "roll")
 	for k := 1; k <= 3; k++ {
-		var train, test []int
-		for id, a := range got {
-			i := int(rows[id-1][0].(int64))
-			if a.fold == int64(k) {
-				test = append(test, i)
-			}
-			if a.tf != 0 && a.tf <= int64(k) {
-				train = append(train, i)
-			}
-		}
-		sortInts(train)
-		sortInts(test)
+		train, test := foldMembers(got, rows, k)
 		if !reflect.DeepEqual(train, wantTrain[k-1]) || !reflect.DeepEqual(test, wantTest[k-1]) {
 			t.Errorf("fold %d: train %v test %v, want %v %v", k, train, test, wantTrain[k-1], wantTest[k-1])
 		}

@@ -135,6 +135,42 @@ func NormValue(sqlType string, v driver.Value) (norm string, null, ok bool) {
 	return "", false, false
 }
 
+// ValueTerm is NormTerm(pos, NormValue(sqlType, v)) without allocating: scratch is reused
+// (returned for the next call). ok is false exactly when NormValue's is; the caller then has
+// SQLite normalise v (NormExprSQL) and adds NormTerm of that text.
+func ValueTerm(pos int, sqlType string, v driver.Value, scratch []byte) (uint64, []byte, bool) {
+	ph := posHash(pos)
+	if v == nil {
+		return termNull(ph), scratch, true
+	}
+	switch sqlType {
+	case "TEXT":
+		if s, isStr := v.(string); isStr {
+			return termText(ph, s), scratch, true
+		}
+	case "INTEGER":
+		switch x := v.(type) {
+		case int64:
+			scratch = strconv.AppendInt(scratch[:0], x, 10)
+			return termBytes(ph, scratch), scratch, true
+		case string:
+			return fmix64(fnvString(fnvByte(ph, 'v'), x)), scratch, true
+		}
+	case "REAL":
+		if x, isFloat := v.(float64); isFloat {
+			var out [32]byte
+			r, sc, ok := appendNormReal(out[:0], scratch, x)
+			if ok {
+				return termBytes(ph, r), sc, true
+			}
+			return 0, sc, false
+		}
+	default:
+		panic("ingest: ValueTerm: SQL type must be TEXT, INTEGER or REAL, got " + strconv.Quote(sqlType))
+	}
+	return 0, scratch, false
+}
+
 // appendNormReal appends x's normalised text (printf('%.8e', x)) to dst; ok = false when
 // SQLite must decide (see RoundSignificant). scratch is reused for the 17-digit fallback.
 func appendNormReal(dst, scratch []byte, x float64) ([]byte, []byte, bool) {

@@ -297,6 +297,13 @@ func TestNormValue_MatchesNormExprSQL(t *testing.T) {
 		}
 		for _, v := range vals {
 			norm, null, ok := NormValue(typ, v)
+			// ValueTerm is the same term without the string (checked against NormTerm here).
+			for pos := 1; pos <= 3; pos++ {
+				term, _, tok := ValueTerm(pos, typ, v, nil)
+				if tok != ok || (ok && term != NormTerm(pos, norm, null)) {
+					t.Errorf("ValueTerm(%d, %s, %#v) = %d %v; NormTerm(NormValue) = %d %v", pos, typ, v, term, tok, NormTerm(pos, norm, null), ok)
+				}
+			}
 			if !ok {
 				left[typ]++
 				continue

@@ -1,10 +1,6 @@
 package leakage
 
-import (
-	"strconv"
-
-	"splitsmith/ingest"
-)
+import "splitsmith/ingest"
 
 // The default exact-duplicate key (text normalised, REAL to ingest.NormDigits significant
 // digits, INTEGER exact) over the feature columns is read from the table's stored normalised
@@ -49,21 +45,25 @@ func (a *audit) normKeys() []uint64 {
 		cols[j] = a.data[c.Name]
 	}
 	parallel(len(out), a.workers, func(lo, hi int) {
-		var nb [24]byte
+		var scratch []byte
 		for i := lo; i < hi; i++ {
 			h := uint64(a.normDigest[i])
 			for j, c := range cols {
 				pos := ex[j].Pos
+				var v any
 				switch {
 				case c.null[i]:
-					h -= ingest.NormTerm(pos, "", true)
 				case c.SQLType == "TEXT":
-					h -= ingest.NormTerm(pos, ingest.NormalizeText(c.str[i]), false)
+					v = c.str[i]
 				case c.SQLType == "INTEGER":
-					h -= ingest.NormTerm(pos, string(strconv.AppendInt(nb[:0], c.ints[i], 10)), false)
-				default:
+					v = c.ints[i]
+				default: // rounded as read (SQLite deciding where Go could not)
 					h -= ingest.NormTerm(pos, c.rounded[ingest.NormDigits][i], false)
+					continue
 				}
+				t, sc, _ := ingest.ValueTerm(pos, c.SQLType, v, scratch) // always sure for NULL, text, integers
+				scratch = sc
+				h -= t
 			}
 			out[i] = h
 		}

@@ -474,6 +474,7 @@ func newDigestTap(ctx context.Context, conn *sql.Conn, t *Table, progress progre
 		go func() {
 			defer wg.Done()
 			dg := ingest.NewDigester()
+			var scratch []byte // ValueTerm's
 			w := d.width
 			for c := range d.work {
 				for r, id := range c.ids {
@@ -491,12 +492,13 @@ func newDigestTap(ctx context.Context, conn *sql.Conn, t *Table, progress progre
 						c.bad = append(c.bad, got != c.stored[r])
 						var sum uint64
 						for j, v := range c.vals[r*w : (r+1)*w] {
-							norm, null, ok := ingest.NormValue(d.types[j], v)
+							term, sc, ok := ingest.ValueTerm(j+1, d.types[j], v, scratch)
+							scratch = sc
 							if !ok {
 								c.fixes = append(c.fixes, normFix{r, j + 1, d.types[j], v})
 								continue
 							}
-							sum += ingest.NormTerm(j+1, norm, null)
+							sum += term
 						}
 						c.normSum = append(c.normSum, sum)
 					}
@@ -564,6 +566,12 @@ func (d *digestTap) finish() ([]Change, error) {
 	close(d.work)
 	<-d.collected
 	slices.SortFunc(d.done, func(a, b *digestChunk) int { return a.seq - b.seq })
+	fixStmts := map[string]*sql.Stmt{} // per SQL type, prepared once for every chunk
+	defer func() {
+		for _, st := range fixStmts {
+			st.Close()
+		}
+	}()
 	var out []Change
 	for _, c := range d.done {
 		if c.err != nil {
@@ -573,7 +581,7 @@ func (d *digestTap) finish() ([]Change, error) {
 			out = append(out, c.out...)
 			continue
 		}
-		if err := d.applyFixes(c); err != nil {
+		if err := d.applyFixes(c, fixStmts); err != nil {
 			return nil, err
 		}
 		// In row order: a content-digest change, else a normalised-digest mismatch.
@@ -594,13 +602,7 @@ func (d *digestTap) finish() ([]Change, error) {
 
 // applyFixes adds the terms of the values only SQLite normalises for sure (after the read,
 // when the connection is free): printf('%.8e', x) for a REAL, NormExprSQL in general.
-func (d *digestTap) applyFixes(c *digestChunk) error {
-	stmts := map[string]*sql.Stmt{}
-	defer func() {
-		for _, st := range stmts {
-			st.Close()
-		}
-	}()
+func (d *digestTap) applyFixes(c *digestChunk, stmts map[string]*sql.Stmt) error {
 	for _, f := range c.fixes {
 		st, ok := stmts[f.typ]
 		if !ok {

@@ -160,9 +160,8 @@ type audit struct {
 	rawNeeded           map[string]bool // columns read as values, not only in rounded form
 	useDigest           bool            // load ss_digest
 	ran                 []*Check
-	labelIdx            []int32 // each row's label class (leaking_feature), -1 for NULL
-	hasNormDigest       bool    // the table has ss_norm_digest
-	useNormDigest       bool    // load ss_norm_digest (normkey.go)
+	hasNormDigest       bool // the table has ss_norm_digest
+	useNormDigest       bool // load ss_norm_digest (normkey.go)
 	normDigest          []int64
 	countEntity         bool // count entity values per side while reading (shared_entity)
 	counted             map[string]*entityCounter

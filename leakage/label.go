@@ -8,47 +8,52 @@ import (
 )
 
 // labelClasses returns the label's distinct non-NULL values as repr strings, sorted (numbers
-// numerically), and whether the label is numeric.
-func (a *audit) labelClasses() ([]string, bool) {
+// numerically), whether the label is numeric, and each row's class as its index in that
+// order (-1 for NULL), all from one pass over the rows.
+func (a *audit) labelClasses() ([]string, bool, []int32) {
 	c := a.data[a.label]
-	seen := map[string]float64{}
+	type class struct {
+		id  int32 // in order of first row
+		num float64
+	}
+	seen := map[string]class{}
+	idx := make([]int32, len(a.rowID))
 	for i := range a.rowID {
-		if !c.null[i] {
-			if c.SQLType == "TEXT" {
-				seen[c.repr(i)] = 0
-			} else {
-				seen[c.repr(i)] = c.num[i]
-			}
+		idx[i] = -1
+		if c.null[i] {
+			continue
 		}
+		r := c.repr(i)
+		k, ok := seen[r]
+		if !ok {
+			k = class{int32(len(seen)), 0}
+			if c.SQLType != "TEXT" {
+				k.num = c.num[i]
+			}
+			seen[r] = k
+		}
+		idx[i] = k.id
 	}
 	var out []string
 	for k := range seen {
 		out = append(out, k)
 	}
 	sort.Slice(out, func(i, j int) bool {
-		if c.SQLType != "TEXT" && seen[out[i]] != seen[out[j]] {
-			return seen[out[i]] < seen[out[j]]
+		if c.SQLType != "TEXT" && seen[out[i]].num != seen[out[j]].num {
+			return seen[out[i]].num < seen[out[j]].num
 		}
 		return out[i] < out[j]
 	})
-	return out, c.SQLType != "TEXT"
-}
-
-// labelIndexes is each row's label as its index in classes (-1 for NULL).
-func (a *audit) labelIndexes(classes []string) []int32 {
-	lab := a.data[a.label]
-	idx := make(map[string]int32, len(classes))
-	for k, c := range classes {
-		idx[c] = int32(k)
+	rank := make([]int32, len(out)) // first-row id -> sorted position
+	for p, k := range out {
+		rank[seen[k].id] = int32(p)
 	}
-	out := make([]int32, len(a.rowID))
-	for i := range out {
-		out[i] = -1
-		if !lab.null[i] {
-			out[i] = idx[lab.repr(i)]
+	for i, id := range idx {
+		if id >= 0 {
+			idx[i] = rank[id]
 		}
 	}
-	return out
+	return out, c.SQLType != "TEXT", idx
 }
 
 // labelSQLPositive is the SQL test "label is the positive class".
@@ -85,7 +90,7 @@ func strength(s leakScore) float64 {
 // rest, keeping per column and measure the class it separates best; a numeric label of more
 // than two values by rank correlation.
 func runLeakingFeature(a *audit) error {
-	classes, numericLabel := a.labelClasses()
+	classes, numericLabel, labelIdx := a.labelClasses()
 	th, rho := a.p("auc"), a.p("rho")
 	maxLevels := int(a.p("max_levels"))
 	binary := len(classes) == 2
@@ -104,9 +109,6 @@ func runLeakingFeature(a *audit) error {
 	for _, t := range a.text {
 		isText[t] = true
 	}
-	if positives != nil {
-		a.labelIdx = a.labelIndexes(classes)
-	}
 	// Columns are scored in parallel (they read the columns only), collected in column order.
 	perCol := make([][]leakScore, len(a.feature))
 	eachParallel(len(a.feature), a.workers, func(k int) {
@@ -123,7 +125,7 @@ func runLeakingFeature(a *audit) error {
 		best := map[string]leakScore{}
 		var order []string
 		for _, pos := range positives {
-			for _, s := range a.classScores(col, pos, slices.Index(classes, pos), th, isText[col]) {
+			for _, s := range a.classScores(col, pos, slices.Index(classes, pos), labelIdx, th, isText[col]) {
 				if !binary {
 					s.Class = pos[1:]
 				}
@@ -217,7 +219,7 @@ func (a *audit) spearmanScore(col string, rho float64) (leakScore, bool) {
 // classScores are col's measures with pos (a label repr) as the positive class and every
 // other labelled row as negative: missingness AUC, and a numeric column's AUC or a
 // categorical column's level-purity AUC (not for text columns).
-func (a *audit) classScores(col, pos string, posIdx int, th float64, text bool) []leakScore {
+func (a *audit) classScores(col, pos string, posIdx int, labelIdx []int32, th float64, text bool) []leakScore {
 	c, lab := a.data[col], a.data[a.label]
 	minLevel, maxLevels := int(a.p("min_level")), int(a.p("max_levels"))
 	var out []leakScore
@@ -229,7 +231,7 @@ func (a *audit) classScores(col, pos string, posIdx int, th float64, text bool) 
 			continue
 		}
 		labelled++
-		isPos := int(a.labelIdx[i]) == posIdx
+		isPos := int(labelIdx[i]) == posIdx
 		if c.null[i] {
 			nulls++
 		}
@@ -272,7 +274,7 @@ func (a *audit) classScores(col, pos string, posIdx int, th float64, text bool) 
 				levels[c.str[i]] = l
 			}
 			l.n++
-			if int(a.labelIdx[i]) == posIdx {
+			if int(labelIdx[i]) == posIdx {
 				l.p++
 			}
 		}
@@ -297,7 +299,7 @@ func (a *audit) classScores(col, pos string, posIdx int, th float64, text bool) 
 				l = &pooled
 			}
 			sc = append(sc, float64(l.p)/float64(l.n))
-			yy = append(yy, int(a.labelIdx[i]) == posIdx)
+			yy = append(yy, int(labelIdx[i]) == posIdx)
 		}
 		if auc := AUC(sc, yy); !math.IsNaN(auc) {
 			out = append(out, leakScore{Column: col, Measure: "level_purity_auc", Score: auc, Rows: len(sc), flagged: auc >= th || auc <= 1-th, pos: pos})

@@ -5,6 +5,7 @@ import (
 	"runtime"
 	"slices"
 	"sync"
+	"sync/atomic"
 )
 
 // NearDupOptions configure NearDuplicates. Zero fields take the stated defaults.
@@ -292,6 +293,34 @@ func cmpU64(a, b uint64) int {
 		return 1
 	}
 	return 0
+}
+
+// eachParallel calls fn(0..n-1) on up to workers goroutines, handing out one index at a time:
+// for a few heavy items (columns to score), where parallel's even chunks of cheap ones (rows)
+// would leave a core idle.
+func eachParallel(n, workers int, fn func(i int)) {
+	if workers < 2 || n < 2 {
+		for i := 0; i < n; i++ {
+			fn(i)
+		}
+		return
+	}
+	var next atomic.Int64
+	var wg sync.WaitGroup
+	for range min(workers, n) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1)) - 1
+				if i >= n {
+					return
+				}
+				fn(i)
+			}
+		}()
+	}
+	wg.Wait()
 }
 
 // parallel runs fn over [0, n) in contiguous chunks on up to workers goroutines.

@@ -4,8 +4,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"sync"
-	"sync/atomic"
 )
 
 // CategoricalCounts tallies levels of two samples (NULL as the level "\x00"), returning the
@@ -79,32 +77,6 @@ type colShift struct {
 	msg    string
 	isTime bool
 	skip   bool // identifier-like or free text
-}
-
-// eachParallel calls fn(0..n-1) on up to workers goroutines.
-func eachParallel(n, workers int, fn func(i int)) {
-	if workers < 2 || n < 2 {
-		for i := 0; i < n; i++ {
-			fn(i)
-		}
-		return
-	}
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	for range min(workers, n) {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				i := int(next.Add(1)) - 1
-				if i >= n {
-					return
-				}
-				fn(i)
-			}
-		}()
-	}
-	wg.Wait()
 }
 
 func runDistributionShift(a *audit) error {

@@ -65,6 +65,39 @@ func (a *audit) entityGroups(col string) ([]string, [][]int32) {
 
 func itemText(repr string) string { return repr[1:] }
 
+// unionFind is a disjoint-set forest over 0..n-1 with path halving; the smaller index is the
+// root of a union, so roots are each set's first member.
+type unionFind struct{ parent []int32 }
+
+func newUnionFind(n int) *unionFind {
+	u := &unionFind{parent: make([]int32, n)}
+	for i := range u.parent {
+		u.parent[i] = int32(i)
+	}
+	return u
+}
+
+// add makes a new singleton set and returns it.
+func (u *unionFind) add() int32 {
+	n := int32(len(u.parent))
+	u.parent = append(u.parent, n)
+	return n
+}
+
+func (u *unionFind) find(x int32) int32 {
+	for u.parent[x] != x {
+		u.parent[x] = u.parent[u.parent[x]]
+		x = u.parent[x]
+	}
+	return x
+}
+
+func (u *unionFind) union(a, b int32) {
+	if ra, rb := u.find(a), u.find(b); ra != rb {
+		u.parent[max(ra, rb)] = min(ra, rb)
+	}
+}
+
 // entityComponents reports whether the entity columns are the split's own two or more group
 // columns, which the split joined into connected components.
 func (a *audit) entityComponents() bool {
@@ -85,16 +118,9 @@ func (a *audit) entityComponentGroups() ([]string, [][]int32) {
 		cols[j] = a.data[e]
 		idx[j] = map[string]int32{}
 	}
-	var parent []int32
+	var uf unionFind
 	var nodeCol []int
 	var nodeVal []string
-	find := func(x int32) int32 {
-		for parent[x] != x {
-			parent[x] = parent[parent[x]]
-			x = parent[x]
-		}
-		return x
-	}
 	rowNode := make([]int32, len(a.rowID))
 	for i := range a.rowID {
 		first := int32(-1)
@@ -105,9 +131,8 @@ func (a *audit) entityComponentGroups() ([]string, [][]int32) {
 			k := c.repr(i)
 			n, ok := idx[j][k]
 			if !ok {
-				n = int32(len(parent))
+				n = uf.add()
 				idx[j][k] = n
-				parent = append(parent, n)
 				nodeCol = append(nodeCol, j)
 				nodeVal = append(nodeVal, k)
 			}
@@ -115,19 +140,14 @@ func (a *audit) entityComponentGroups() ([]string, [][]int32) {
 				first = n
 				continue
 			}
-			ra, rb := find(first), find(n)
-			if ra < rb {
-				parent[rb] = ra
-			} else if rb < ra {
-				parent[ra] = rb
-			}
+			uf.union(first, n)
 		}
 		rowNode[i] = first
 	}
 	// Name of each root: its smallest member (column position, value text).
 	best := map[int32]int32{}
-	for n := range parent {
-		r := find(int32(n))
+	for n := range uf.parent {
+		r := uf.find(int32(n))
 		b, ok := best[r]
 		if !ok || nodeCol[n] < nodeCol[b] || (nodeCol[n] == nodeCol[b] && itemText(nodeVal[n]) < itemText(nodeVal[b])) {
 			best[r] = int32(n)
@@ -140,7 +160,7 @@ func (a *audit) entityComponentGroups() ([]string, [][]int32) {
 		if n < 0 {
 			continue
 		}
-		r := find(n)
+		r := uf.find(n)
 		g, ok := comp[r]
 		if !ok {
 			g = len(groups)

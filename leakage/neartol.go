@@ -226,17 +226,7 @@ func runNearNumericTol(a *audit, tol float64) error {
 		return true
 	}
 
-	parent := make([]int32, n)
-	for r := range parent {
-		parent[r] = int32(r)
-	}
-	find := func(x int32) int32 {
-		for parent[x] != x {
-			parent[x] = parent[parent[x]]
-			x = parent[x]
-		}
-		return x
-	}
+	uf := newUnionFind(n)
 	// Each pair is found once: a representative looks at the neighbouring cells whose offset
 	// is lexicographically at least zero (the other half sees it from the other end), and in
 	// its own cell only at later representatives.
@@ -254,9 +244,7 @@ func runNearNumericTol(a *audit, tol float64) error {
 					return false
 				}
 				if match(p, q) {
-					if ra, rb := find(p), find(q); ra != rb {
-						parent[max(ra, rb)] = min(ra, rb)
-					}
+					uf.union(p, q)
 				}
 			}
 			return true
@@ -290,7 +278,7 @@ func runNearNumericTol(a *audit, tol float64) error {
 	comp := map[int32][]int32{}
 	var roots []int32
 	for r := int32(0); int(r) < n; r++ {
-		root := find(r)
+		root := uf.find(r)
 		if _, ok := comp[root]; !ok {
 			roots = append(roots, root)
 		}

@@ -142,11 +142,7 @@ func TestRun_PlantedLeaks(t *testing.T) {
 		t.Errorf("skipped = %v", rep.Skipped)
 	}
 	// Every stored check query replays to no rows.
-	for name, n := range replay(t, path, "naive") {
-		if n != 0 {
-			t.Errorf("stored query %s returns %d rows, want 0", name, n)
-		}
-	}
+	replayClean(t, path, "naive", "")
 	// Deterministic: a second audit gives the same findings.
 	rep2, err := runAudit(t, path, Options{Split: "naive", Label: "failed", Text: []string{"notes"}})
 	if err != nil {
@@ -246,11 +242,7 @@ func TestRun_TimeOverlap(t *testing.T) {
 	if len(g) != 3 || g[2].subject != "gap" || rep.Findings[2].Score != -10*86400 {
 		t.Errorf("gap finding: %+v", rep.Findings)
 	}
-	for name, n := range replay(t, path, "bytime") {
-		if n != 0 {
-			t.Errorf("stored query %s returns %d rows", name, n)
-		}
-	}
+	replayClean(t, path, "bytime", "")
 	// Move E1's holdout row after its training rows: the stored item no longer holds.
 	db = openRW(t, path)
 	if _, err := db.Exec(`UPDATE t SET day = '2024-01-25' WHERE ss_row = 10`); err != nil {
@@ -334,11 +326,7 @@ func TestRun_ExactDuplicateRawAndDigest(t *testing.T) {
 	if g := fmt.Sprint(summarize(rep, "exact_duplicate")); g != "[{exact_duplicate within holdout warn holdout:[34 35]}]" {
 		t.Errorf("digest path: %v", g)
 	}
-	for name, n := range replay(t, path, "naive") {
-		if n != 0 {
-			t.Errorf("%s: %d rows", name, n)
-		}
-	}
+	replayClean(t, path, "naive", "")
 	q := replayText(t, path, "exact_duplicate.across")
 	if !strings.Contains(q, "t.ss_digest AS key") {
 		t.Errorf("digest path query does not group ss_digest:\n%s", q)
@@ -425,11 +413,7 @@ func TestRun_ShiftAndAdequacy(t *testing.T) {
 	if ad.Severity != Warn || math.Abs(ad.Score-0.03) > 1e-15 || ad.Evidence["rows_needed"] != 1729 {
 		t.Errorf("adequacy %+v", ad)
 	}
-	for name, n := range replay(t, path, "s") {
-		if n != 0 {
-			t.Errorf("%s: %d rows", name, n)
-		}
-	}
+	replayClean(t, path, "s", "")
 }
 
 // The audit reads a spec's gap with the split's own parser: every form a split accepts
@@ -492,11 +476,7 @@ func TestRun_NormDigestKeysEqualValues(t *testing.T) {
 		if len(viaDigest.Findings) == 0 || !reflect.DeepEqual(viaDigest.Findings, viaValues.Findings) {
 			t.Errorf("%s: %d findings from ss_norm_digest, %d from the values, or they differ", c.name, len(viaDigest.Findings), len(viaValues.Findings))
 		}
-		for name, n := range replay(t, path, c.opts.Split) {
-			if n != 0 {
-				t.Errorf("%s: stored query %s returns %d rows, want 0", c.name, name, n)
-			}
-		}
+		replayClean(t, path, c.opts.Split, c.name + ": ")
 	}
 	// A table ingested before ss_norm_digest existed: the values are read.
 	f := pipesFixture()
@@ -577,9 +557,5 @@ func TestLeakingFeature_Multiclass(t *testing.T) {
 	if !seen {
 		t.Errorf("x2 missing from the ranking %+v", ranking)
 	}
-	for name, n := range replay(t, path, "s") {
-		if n != 0 {
-			t.Errorf("stored query %s returns %d rows, want 0", name, n)
-		}
-	}
+	replayClean(t, path, "s", "")
 }

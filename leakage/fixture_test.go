@@ -207,6 +207,21 @@ func openRW(t testing.TB, path string) *sql.DB {
 	return db
 }
 
+// replayClean fails the test for every stored check query of the split's audit that returns
+// rows (on intact data each must return none), naming the case.
+func replayClean(t testing.TB, path, split, name string) {
+	t.Helper()
+	got := replay(t, path, split)
+	if len(got) == 0 {
+		t.Errorf("%sno stored check queries for split %s", name, split)
+	}
+	for q, n := range got {
+		if n != 0 {
+			t.Errorf("%sstored query %s returns %d rows, want 0", name, q, n)
+		}
+	}
+}
+
 func replayText(t testing.TB, path, name string) string {
 	db := openRW(t, path)
 	defer db.Close()

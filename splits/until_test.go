@@ -87,25 +87,13 @@ func TestSplit_UntilRollingNumeric(t *testing.T) {
 	makeTable(t, path, "n", []col{{"t", "INTEGER"}}, rows, nil)
 	res := mustSplit(t, path, Spec{Name: "r", Table: "n", Time: "t", Until: "11", Folds: 3, TestSize: 2, GapRows: 2})
 	got := readRows(t, path, "r")
-	for k := 1; k <= 3; k++ {
-		var train, test []int
-		for id, a := range got {
-			i := int(rows[id-1][0].(int64))
-			if i > 11 {
-				if a != (rowAssign{reason: "after_until"}) {
-					t.Errorf("row t=%d after --until 11: %+v", i, a)
-				}
-				continue
-			}
-			if a.fold == int64(k) {
-				test = append(test, i)
-			}
-			if a.tf != 0 && a.tf <= int64(k) {
-				train = append(train, i)
-			}
+	for id, a := range got {
+		if i := rows[id-1][0].(int64); i > 11 && a != (rowAssign{reason: "after_until"}) {
+			t.Errorf("row t=%d after --until 11: %+v", i, a)
 		}
-		sortInts(train)
-		sortInts(test)
+	}
+	for k := 1; k <= 3; k++ {
+		train, test := foldMembers(got, rows, k) // rows after --until are in neither
 		if !reflect.DeepEqual(train, wantTrain[k-1]) || !reflect.DeepEqual(test, wantTest[k-1]) {
 			t.Errorf("fold %d: train %v test %v, want %v %v (TimeSeriesSplit)", k, train, test, wantTrain[k-1], wantTest[k-1])
 		}

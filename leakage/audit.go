@@ -1173,14 +1173,8 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 	}
 	defer a.conn.ExecContext(a.ctx, fmt.Sprintf(`PRAGMA cache_size = %d`, cache))
 	err := a.conn.Raw(func(dc any) error {
-		fb, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES`, 14, 64)
-		if err != nil {
-			return err
-		}
-		rb, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES`, 4, 200)
-		if err != nil {
-			return err
-		}
+		fb := newRawInserter(a.ctx, dc, `INSERT INTO ss_findings(audit_id, seq, check_name, severity, subject, item, side_a, rows_a, side_b, rows_b, score, message, evidence_json, query_name) VALUES`, 14, 64)
+		rb := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_rows(audit_id, seq, side, row_id) VALUES`, 4, 200)
 
 		for i, f := range rep.Findings {
 			seq := int64(i + 1)
@@ -1225,10 +1219,7 @@ func (a *audit) write(qa QueryAdder, rep *Report) error {
 			}
 			if len(f.Items) > 0 {
 				// The finding's items, audit_id and seq as literals (a million items is common).
-				ib, err := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_items(audit_id, seq, first_row, side, item, rows) VALUES`, 4, 200)
-				if err != nil {
-					return err
-				}
+				ib := newRawInserter(a.ctx, dc, `INSERT INTO ss_finding_items(audit_id, seq, first_row, side, item, rows) VALUES`, 4, 200)
 				ib.prefix = fmt.Sprintf("%d,%d", a.auditID, seq)
 				for _, it := range f.Items {
 					for _, s := range it.Sides {

@@ -476,7 +476,7 @@ func TestRun_NormDigestKeysEqualValues(t *testing.T) {
 		if len(viaDigest.Findings) == 0 || !reflect.DeepEqual(viaDigest.Findings, viaValues.Findings) {
 			t.Errorf("%s: %d findings from ss_norm_digest, %d from the values, or they differ", c.name, len(viaDigest.Findings), len(viaValues.Findings))
 		}
-		replayClean(t, path, c.opts.Split, c.name + ": ")
+		replayClean(t, path, c.opts.Split, c.name+": ")
 	}
 	// A table ingested before ss_norm_digest existed: the values are read.
 	f := pipesFixture()

@@ -3,7 +3,6 @@ package leakage
 import (
 	"context"
 	"database/sql/driver"
-	"errors"
 
 	"splitsmith/ingest"
 )
@@ -32,11 +31,10 @@ type rawInserter struct {
 	full   *ingest.RawStmt
 }
 
-func newRawInserter(ctx context.Context, dc any, head string, width, per int) (*rawInserter, error) {
-	if _, ok := dc.(driver.ConnPrepareContext); !ok {
-		return nil, errors.New("driver connection cannot prepare statements")
-	}
-	return &rawInserter{ctx: ctx, dc: dc, head: head, width: width, per: per, args: make([]driver.NamedValue, 0, width*per)}, nil
+// newRawInserter is a rawInserter on dc, the driver connection conn.Raw hands over (its
+// statements are prepared by ingest.PrepareRaw, which reports a connection that cannot).
+func newRawInserter(ctx context.Context, dc any, head string, width, per int) *rawInserter {
+	return &rawInserter{ctx: ctx, dc: dc, head: head, width: width, per: per, args: make([]driver.NamedValue, 0, width*per)}
 }
 
 func (r *rawInserter) add(vals ...driver.Value) error {

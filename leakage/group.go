@@ -365,15 +365,10 @@ func (a *audit) itemTotals(f *Finding) ([]int, int) {
 }
 
 // sharedItems returns the values of col with rows on more than one side, in order of first
-// row, and the number of distinct values (counted while the rows were read when it could be).
+// row, and the number of distinct values, from the counts loadRows made while it read the
+// rows (it counts every entity column whenever shared_entity runs on single columns).
 func (a *audit) sharedItems(col string) ([]Item, int) {
 	e := a.counted[col]
-	if e == nil {
-		e = newEntityCounter(a.data[col], len(a.sides), len(a.rowID))
-		for i, id := range a.rowID {
-			e.add(i, id, a.side[i])
-		}
-	}
 	return a.itemsOf(e.names, e.first, e.counts), len(e.first)
 }
 

@@ -159,9 +159,8 @@ type audit struct {
 	needed              map[string]bool // columns the selected checks read
 	rawNeeded           map[string]bool // columns read as values, not only in rounded form
 	useDigest           bool            // load ss_digest
-	ran                 []*Check
-	hasNormDigest       bool // the table has ss_norm_digest
-	useNormDigest       bool // load ss_norm_digest (normkey.go)
+	hasNormDigest       bool            // the table has ss_norm_digest
+	useNormDigest       bool            // load ss_norm_digest (normkey.go)
 	normDigest          []int64
 	countEntity         bool // count entity values per side while reading (shared_entity)
 	counted             map[string]*entityCounter
@@ -322,7 +321,6 @@ func Run(ctx context.Context, conn *sql.Conn, runID int64, qa QueryAdder, opts O
 	if a.auditID, err = res.LastInsertId(); err != nil {
 		return nil, err
 	}
-	a.ran = run
 	rep := &Report{AuditID: a.auditID, Split: a.split, Table: a.table, Rows: len(a.rowID), Sides: a.sides, Skipped: a.skipped}
 	for _, c := range run {
 		a.check = c
@@ -380,23 +378,23 @@ func (a *audit) resolved(rep *Report) map[string]any {
 		"checks": rep.Ran, "skipped": skipped, "label": a.label, "text": orEmpty(a.text), "time": a.timeCol,
 		"entity": orEmpty(a.entity), "features": orEmpty(a.feature), "params": params,
 	}
-	if k := a.exactKeySource(); k != "" {
+	if k := a.exactKeySource(rep.Ran); k != "" {
 		out["exact_key"] = k
 	}
 	return out
 }
 
-// exactKeySource says where the exact-duplicate key came from: the stored digests, or the
-// values read; "" when no check used it.
-func (a *audit) exactKeySource() string {
+// exactKeySource says where the exact-duplicate key of the checks that ran came from: the
+// stored digests, or the values read; "" when none of them used it.
+func (a *audit) exactKeySource(ran []string) string {
 	switch {
 	case a.useDigest:
 		return "ss_digest"
 	case a.useNormDigest:
 		return "ss_norm_digest"
 	}
-	for _, c := range a.ran {
-		if c == ExactDuplicate || c == LabelConflict || c == NearDuplicateNumeric {
+	for _, name := range ran {
+		if c := Lookup(name); c == ExactDuplicate || c == LabelConflict || c == NearDuplicateNumeric {
 			return "values"
 		}
 	}

@@ -33,10 +33,11 @@ func runNearNumericTol(a *audit, tol float64) error {
 	exact := a.featureKey()
 	k1 := a.keys(exact)
 	var texts, nums []*column
-	var numNames []string
+	var textNames, numNames []string
 	for _, f := range a.feature {
 		if c := a.data[f]; c.SQLType == "TEXT" {
 			texts = append(texts, c)
+			textNames = append(textNames, f)
 		} else {
 			nums = append(nums, c)
 			numNames = append(numNames, f)
@@ -69,7 +70,9 @@ func runNearNumericTol(a *audit, tol float64) error {
 	}
 	n := len(rep)
 
-	// Block: normalised text, NULL pattern and sign pattern (FNV-1a); cells on the log scale.
+	// Block: the normalised text (the exact-duplicate key over the text columns alone), then
+	// the NULL and sign pattern of the numbers; cells on the log scale.
+	textKey := a.keys(keySpec{cols: textNames, normalize: true})
 	delta := -math.Log1p(-tol)
 	const noCell = math.MinInt64 // NULL or zero: matches only the same
 	block := make([]uint64, n)
@@ -78,17 +81,7 @@ func runNearNumericTol(a *audit, tol float64) error {
 		cells[j] = make([]int64, n)
 	}
 	for r, i := range rep {
-		h := uint64(fnvOffset)
-		for _, c := range texts {
-			s := "\x00"
-			if !c.null[i] {
-				s = "v" + NormalizeValue(c.str[i])
-			}
-			for b := 0; b < len(s); b++ {
-				h = (h ^ uint64(s[b])) * fnvPrime
-			}
-			h = (h ^ 0xff) * fnvPrime
-		}
+		h := textKey[i]
 		for j, c := range nums {
 			var tag byte
 			cells[j][r] = noCell

@@ -137,11 +137,11 @@ func runTimeOverlap(a *audit) error {
 			}
 			names = append(names, itemText(key))
 			first = append(first, a.rowID[rows[0]]) // group rows ascend, in row order
-			cs := make([]int32, ns)
+			base := len(counts)
+			counts = append(counts, make([]int32, ns)...)
 			for _, i := range rows {
-				cs[a.side[i]]++
+				counts[base+a.side[i]]++
 			}
-			counts = append(counts, cs...)
 			if len(ex) < 3 {
 				ex = append(ex, fmt.Sprintf("%s (training up to %s, holdout from %s)", itemText(key), tmax, hmin))
 			}
